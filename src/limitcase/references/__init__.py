@@ -1,0 +1,22 @@
+"""Trusted reference prices: closed forms and numerical base cases.
+
+This package is the trusted side of every check. It shares no code with the Monte Carlo
+engine: its closed-form modules import only numpy, scipy, math and :mod:`limitcase.errors`.
+Every function broadcasts its numeric arguments and returns a float for scalar input.
+"""
+
+from limitcase.references.blackscholes import (
+    black76,
+    black_scholes,
+    prepaid_forward,
+    put_call_parity_gap,
+)
+
+__all__ = [
+    "black76",
+    "black_scholes",
+    "prepaid_forward",
+    "put_call_parity_gap",
+]
+
+# numerical references
