@@ -8,15 +8,23 @@ Every function broadcasts its numeric arguments and returns a float for scalar i
 from limitcase.references.blackscholes import (
     black76,
     black_scholes,
+    implied_vol,
     prepaid_forward,
     put_call_parity_gap,
 )
+from limitcase.references.digitals import asset_or_nothing, cash_or_nothing, gap_option
 
 __all__ = [
+    # blackscholes
     "black76",
     "black_scholes",
+    "implied_vol",
     "prepaid_forward",
     "put_call_parity_gap",
+    # digitals
+    "asset_or_nothing",
+    "cash_or_nothing",
+    "gap_option",
 ]
 
 # numerical references

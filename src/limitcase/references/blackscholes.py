@@ -227,7 +227,7 @@ def black_scholes(
     .. [2] R. C. Merton, "Theory of Rational Option Pricing", Bell Journal of Economics
        and Management Science 4(1), 1973.
     .. [3] E. G. Haug, *The Complete Guide to Option Pricing Formulas*, 2nd ed., 2007,
-       section 1.1.6 (generalised Black-Scholes-Merton).
+       chapter 1 (the generalised Black-Scholes-Merton formula, cost of carry b).
     """
     func = "black_scholes"
     call = _check_kind(kind, func) == "call"
@@ -315,7 +315,7 @@ def black76(
     .. [1] F. Black, "The Pricing of Commodity Contracts", Journal of Financial Economics
        3, 1976.
     .. [2] E. G. Haug, *The Complete Guide to Option Pricing Formulas*, 2nd ed., 2007,
-       section 1.1.3.
+       chapter 1 (options on futures).
     """
     func = "black76"
     call = _check_kind(kind, func) == "call"
@@ -367,3 +367,158 @@ def put_call_parity_gap(
     _check("put", p, func, fix="pass a finite put price")
     s, k, t, r, q, _ = _market(func, spot, strike, maturity, rate, dividend, 0.0)
     return _out(c - p - (s * np.exp(-q * t) - k * np.exp(-r * t)))
+
+
+def implied_vol(
+    price: ArrayLike,
+    spot: ArrayLike,
+    strike: ArrayLike,
+    maturity: ArrayLike,
+    rate: ArrayLike,
+    dividend: ArrayLike,
+    kind: str = "call",
+    *,
+    xtol: float = 1e-13,
+    max_iter: int = 200,
+) -> float | np.ndarray:
+    r"""Black-Scholes implied volatility by a vectorised, bracketed Newton-bisection hybrid.
+
+    Parameters
+    ----------
+    price : array_like
+        Observed option prices.
+    spot, strike, maturity, rate, dividend : array_like
+        As in :func:`black_scholes`; here spot, strike and maturity must be > 0 (otherwise
+        the price does not depend on the volatility).
+    kind : {"call", "put"}
+    xtol : float, optional
+        Stop when the bracket on the total standard deviation :math:`w = \sigma\sqrt T`
+        is narrower than ``xtol * max(1, w)``, or the price error is below
+        ``xtol * upper bound``.
+    max_iter : int, optional
+        Iteration cap; convergence is guaranteed well before it because every step either
+        is a Newton step inside the bracket or halves the bracket.
+
+    Returns
+    -------
+    float or ndarray
+        sigma >= 0 with ``black_scholes(spot, strike, maturity, rate, dividend, sigma,
+        kind) == price``; 0 exactly when the price equals the lower bound.
+
+    Raises
+    ------
+    ParamError
+        When no volatility reproduces a price: the message names the price, the bound
+        it violates and its value.
+
+    Notes
+    -----
+    The Black-Scholes price is continuous and strictly increasing in
+    :math:`w = \sigma\sqrt T` (vega :math:`S e^{-qT} n(d_1) > 0`), from the lower
+    no-arbitrage bound at w = 0 to the upper bound as :math:`w \to \infty`:
+
+    .. math::
+
+        \max(S e^{-qT} - K e^{-rT}, 0) \le c < S e^{-qT}, \qquad
+        \max(K e^{-rT} - S e^{-qT}, 0) \le p < K e^{-rT}.
+
+    A price in this range therefore has exactly one implied volatility. The solver keeps a
+    bracket :math:`[w_{lo}, w_{hi}]` with :math:`c(w_{lo}) \le c^* \le c(w_{hi})`
+    (found by doubling :math:`w_{hi}`), takes the Newton step
+    :math:`w - (c(w) - c^*)/(S e^{-qT} n(d_1))` when it lands strictly inside the
+    bracket and bisects otherwise, so it converges for every admissible price.
+
+    References
+    ----------
+    .. [1] R. C. Merton, "Theory of Rational Option Pricing", Bell Journal of Economics
+       and Management Science 4(1), 1973 (the no-arbitrage bounds).
+    .. [2] S. Manaster and G. Koehler, "The Calculation of Implied Variances from the
+       Black-Scholes Model: A Note", Journal of Finance 37(1), 1982 (Newton iteration
+       for the implied variance).
+    """
+    func = "implied_vol"
+    call = _check_kind(kind, func) == "call"
+    c = _as_float("price", price, func)
+    _check("price", c, func, fix="pass a finite option price")
+    s, k, t, r, q, _ = _market(func, spot, strike, maturity, rate, dividend, 0.0)
+    for name, arr in (("spot", s), ("strike", k), ("maturity", t)):
+        _check(
+            name, arr, func, low=0.0, low_open=True,
+            fix="the price does not depend on the volatility when it is 0; "
+                "implied volatility needs spot, strike and maturity > 0",
+        )
+    c, s, k, t, r, q = np.broadcast_arrays(c, s, k, t, r, q)
+    pf = s * np.exp(-q * t)
+    kd = k * np.exp(-r * t)
+    if call:
+        lower, upper = np.maximum(pf - kd, 0.0), pf
+    else:
+        lower, upper = np.maximum(kd - pf, 0.0), kd
+    # a price a hair below the lower bound (rounding) is taken as the bound itself
+    slack = 8.0 * np.finfo(float).eps * np.maximum(upper, 1.0)
+    below = c < lower - slack
+    above = c >= upper
+    if np.any(below):
+        i = tuple(np.argwhere(below)[0])
+        raise ParamError(
+            f"price={float(c[i])!r}{'' if c.ndim == 0 else f' (at index {i})'} is below the "
+            f"no-arbitrage lower bound {float(lower[i])!r} = max({'S e^-qT - K e^-rT' if call else 'K e^-rT - S e^-qT'}, 0) "
+            f"for a {kind} in {func}; no volatility reproduces it: check the price, rate and dividend"
+        )
+    if np.any(above):
+        i = tuple(np.argwhere(above)[0])
+        raise ParamError(
+            f"price={float(c[i])!r}{'' if c.ndim == 0 else f' (at index {i})'} is at or above the "
+            f"no-arbitrage upper bound {float(upper[i])!r} = {'S e^-qT' if call else 'K e^-rT'} "
+            f"for a {kind} in {func}; no finite volatility reproduces it: check the price"
+        )
+    target = np.maximum(c, lower)
+    sqrt_t = np.sqrt(t)
+
+    logm = np.log(pf / kd)
+
+    def _price_w(w: np.ndarray) -> np.ndarray:
+        with np.errstate(divide="ignore", invalid="ignore"):
+            ws = np.where(w > 0, w, 1.0)
+            d1 = logm / ws + 0.5 * ws
+            d2 = d1 - ws
+            if call:
+                p = pf * ndtr(d1) - kd * ndtr(d2)
+            else:
+                p = kd * ndtr(-d2) - pf * ndtr(-d1)
+        return np.where(w > 0, p, lower)
+
+    lo = np.zeros_like(target)
+    hi = np.ones_like(target)
+    # grow the upper end of the bracket until it is above the target
+    for _ in range(60):
+        short = _price_w(hi) < target
+        if not np.any(short):
+            break
+        hi = np.where(short, 2.0 * hi, hi)
+    else:
+        i = tuple(np.argwhere(_price_w(hi) < target)[0])
+        raise ParamError(
+            f"price={float(c[i])!r} is so close to the upper bound {float(upper[i])!r} in {func} that "
+            f"its implied total volatility exceeds {float(hi[i])!r}; it cannot be resolved in double precision"
+        )
+    w = np.where(target > lower, 0.5 * (lo + hi), 0.0)
+    done = target <= lower
+    ptol = 4.0 * np.finfo(float).eps * np.maximum(upper, 1e-300)
+    for _ in range(max_iter):
+        p = _price_w(w)
+        err = p - target
+        lo = np.where(err <= 0, w, lo)
+        hi = np.where(err >= 0, w, hi)
+        done |= (np.abs(err) <= ptol) | (hi - lo <= xtol * np.maximum(1.0, hi))
+        if np.all(done):
+            break
+        with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+            ws = np.where(w > 0, w, 1.0)
+            d1 = logm / ws + 0.5 * ws
+            vega = pf * np.exp(-0.5 * d1 * d1) / math.sqrt(2.0 * math.pi)
+            newton = w - err / vega
+        inside = np.isfinite(newton) & (newton > lo) & (newton < hi)
+        step = np.where(inside, newton, 0.5 * (lo + hi))
+        w = np.where(done, w, step)
+    return _out(np.where(target <= lower, 0.0, w) / sqrt_t)
