@@ -12,6 +12,13 @@ from limitcase.references.blackscholes import (
     prepaid_forward,
     put_call_parity_gap,
 )
+from limitcase.references.barriers import (
+    BARRIER_KINDS,
+    BGK_BETA,
+    barrier_option,
+    bgk_barrier_shift,
+    discrete_barrier_option,
+)
 from limitcase.references.digitals import asset_or_nothing, cash_or_nothing, gap_option
 
 __all__ = [
@@ -21,6 +28,12 @@ __all__ = [
     "implied_vol",
     "prepaid_forward",
     "put_call_parity_gap",
+    # barriers
+    "BARRIER_KINDS",
+    "BGK_BETA",
+    "barrier_option",
+    "bgk_barrier_shift",
+    "discrete_barrier_option",
     # digitals
     "asset_or_nothing",
     "cash_or_nothing",
