@@ -1,0 +1,46 @@
+"""limitcase: evidence that new exotic payoff code is right.
+
+Products declare bounded parameters, dates, a vectorised payoff, their degenerate limits
+and the relations that must hold; the reducer turns those into checks; the engine prices
+them on common paths with standard errors; the verdict applies Holm's correction.
+"""
+
+from .engine import BLOCK, Estimate, evaluate, price
+from .errors import InputError, LimitcaseError, ModelError, NoReference, ParamError, PayoffError
+from .models import BlackScholes, Model, MultiBlackScholes
+from .params import Param
+from .product import Cashflows, Observed, Product
+from .reduce import Bound, Check, Convex, Identity, Monotone, Reduction, Relation, checks_for
+from .suite import RunResult, run_checks
+
+__all__ = [
+    "BLOCK",
+    "Bound",
+    "BlackScholes",
+    "Cashflows",
+    "Check",
+    "Convex",
+    "Estimate",
+    "Identity",
+    "InputError",
+    "LimitcaseError",
+    "Model",
+    "ModelError",
+    "Monotone",
+    "MultiBlackScholes",
+    "NoReference",
+    "Observed",
+    "Param",
+    "ParamError",
+    "PayoffError",
+    "Product",
+    "Reduction",
+    "Relation",
+    "RunResult",
+    "checks_for",
+    "evaluate",
+    "price",
+    "run_checks",
+]
+
+__version__ = "0.1.0"

@@ -1,0 +1,1 @@
+"""One module per command besides ``check``; each exposes ``command``, a click command."""

@@ -1,0 +1,40 @@
+"""One exception root for the project; every error is also a builtin.
+
+Users may catch ``LimitcaseError`` for anything of ours, or the builtin it also derives
+from (``ValueError``, ``LookupError``, ...), whichever suits their code.
+"""
+
+from __future__ import annotations
+
+__all__ = [
+    "LimitcaseError",
+    "ParamError",
+    "InputError",
+    "NoReference",
+    "PayoffError",
+    "ModelError",
+]
+
+
+class LimitcaseError(Exception):
+    """Root of every error raised by limitcase."""
+
+
+class ParamError(LimitcaseError, ValueError):
+    """A parameter value is outside its declared range or of the wrong type."""
+
+
+class InputError(LimitcaseError, ValueError):
+    """A file, path or argument given to the tool is malformed or missing."""
+
+
+class NoReference(LimitcaseError, LookupError):
+    """No trusted reference price exists for this product under this model."""
+
+
+class PayoffError(LimitcaseError, RuntimeError):
+    """A product's payoff code raised, returned NaN, or returned the wrong shape."""
+
+
+class ModelError(LimitcaseError, ValueError):
+    """A model cannot simulate what was asked (bad grid, bad correlation, ...)."""

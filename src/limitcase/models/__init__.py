@@ -1,0 +1,6 @@
+"""Models of the underlying(s): each declares bounded parameters and simulates on any grid."""
+
+from .base import Degeneration, Model, Simulated
+from .gbm import BlackScholes, MultiBlackScholes
+
+__all__ = ["Model", "Simulated", "Degeneration", "BlackScholes", "MultiBlackScholes"]

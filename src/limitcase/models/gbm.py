@@ -1,0 +1,160 @@
+"""Geometric Brownian motion, one asset or several correlated ones, simulated exactly.
+
+log S(t_j) = log S(t_{j-1}) + (r - q - sigma^2/2) dt_j + sigma sqrt(dt_j) Z_j,
+Z_j standard normal: the exact transition of the Black-Scholes (1973) model, so the
+simulation has no time-step bias on any date grid.
+"""
+
+from __future__ import annotations
+
+import math
+from typing import Any, Sequence
+
+import numpy as np
+
+from ..errors import ModelError, ParamError
+from ..params import Param
+from .base import Model, Simulated
+
+__all__ = ["BlackScholes", "MultiBlackScholes"]
+
+
+class BlackScholes(Model):
+    """One asset under Black-Scholes: spot, short rate, dividend yield, volatility."""
+
+    spot = Param(100.0, low=0.0, low_open=True, doc="price today")
+    rate = Param(0.05, low=-1.0, high=1.0, doc="continuously compounded short rate")
+    dividend = Param(0.02, low=-1.0, high=1.0, doc="continuous dividend yield")
+    vol = Param(0.2, low=0.0, high=5.0, doc="volatility, annualised")
+
+    def initial(self) -> np.ndarray:
+        return np.array([self.spot])
+
+    def dividend_yields(self) -> np.ndarray:
+        return np.array([self.dividend])
+
+    def _simulate(self, times: np.ndarray, z: np.ndarray, rng: np.random.Generator) -> Simulated:
+        dt = np.diff(times, prepend=0.0)
+        # in place, on the caller's block: scale, add drift, accumulate, exponentiate
+        z *= (self.vol * np.sqrt(dt))[None, :, None]
+        z += ((self.rate - self.dividend - 0.5 * self.vol**2) * dt)[None, :, None]
+        np.cumsum(z, axis=1, out=z)
+        z += math.log(self.spot)
+        np.exp(z, out=z)
+        return Simulated(s=z, step_var=(self.vol**2 * dt)[None, :, None])
+
+
+class MultiBlackScholes(Model):
+    """Several assets, each geometric Brownian motion, with correlated Brownian motions.
+
+    Parameters
+    ----------
+    spots, vols, dividends
+        One value per asset (a scalar is repeated for every asset).
+    correlation
+        A symmetric matrix with unit diagonal, positive semi-definite; or one number for
+        every pair.
+    rate
+        Short rate.
+    """
+
+    rate = Param(0.05, low=-1.0, high=1.0, doc="continuously compounded short rate")
+
+    def __init__(
+        self,
+        spots: Sequence[float] | float = (100.0, 100.0),
+        vols: Sequence[float] | float = 0.2,
+        dividends: Sequence[float] | float = 0.0,
+        correlation: Any = 0.5,
+        rate: float = 0.05,
+    ) -> None:
+        super().__init__(rate=rate)
+        s = np.atleast_1d(np.asarray(spots, dtype=float))
+        d = s.size
+        v = np.broadcast_to(np.asarray(vols, dtype=float), (d,)).copy()
+        q = np.broadcast_to(np.asarray(dividends, dtype=float), (d,)).copy()
+        if np.any(s <= 0) or not np.all(np.isfinite(s)):
+            raise ParamError(f"spots={s.tolist()!r} must be finite and > 0 for MultiBlackScholes")
+        if np.any(v < 0) or np.any(v > 5):
+            raise ParamError(f"vols={v.tolist()!r} must lie in [0, 5] for MultiBlackScholes")
+        if np.any(np.abs(q) > 1):
+            raise ParamError(f"dividends={q.tolist()!r} must lie in [-1, 1] for MultiBlackScholes")
+        c = np.asarray(correlation, dtype=float)
+        if c.ndim == 0:
+            if not -1.0 <= float(c) <= 1.0:
+                raise ParamError(f"correlation={float(c)!r} is outside [-1, 1] for MultiBlackScholes")
+            c = np.full((d, d), float(c))
+            np.fill_diagonal(c, 1.0)
+        self._chol = _correlation_factor(c, d)
+        object.__setattr__(self, "spots", s)
+        object.__setattr__(self, "vols", v)
+        object.__setattr__(self, "dividends", q)
+        object.__setattr__(self, "correlation", c)
+        object.__setattr__(self, "n_assets", d)
+
+    def params(self) -> dict[str, Any]:
+        return {
+            "spots": tuple(self.spots.tolist()),
+            "vols": tuple(self.vols.tolist()),
+            "dividends": tuple(self.dividends.tolist()),
+            "correlation": tuple(map(tuple, self.correlation.tolist())),
+            "rate": self.rate,
+        }
+
+    def replace(self, **changes: Any) -> "MultiBlackScholes":
+        values = self.params()
+        values.update(changes)
+        return MultiBlackScholes(**values)
+
+    def __eq__(self, other: object) -> bool:
+        return isinstance(other, MultiBlackScholes) and self.params() == other.params()
+
+    def __hash__(self) -> int:
+        return hash(tuple(self.params().items()))
+
+    def __repr__(self) -> str:
+        p = self.params()
+        rho = self.correlation[np.triu_indices(self.n_assets, 1)]
+        rho_text = f"{rho[0]:g}" if rho.size and np.all(rho == rho[0]) else "matrix"
+        return (
+            f"MultiBlackScholes(spots={list(p['spots'])}, vols={list(p['vols'])}, "
+            f"dividends={list(p['dividends'])}, correlation={rho_text}, rate={self.rate:g})"
+        )
+
+    def initial(self) -> np.ndarray:
+        return self.spots.copy()
+
+    def dividend_yields(self) -> np.ndarray:
+        return self.dividends.copy()
+
+    def _simulate(self, times: np.ndarray, z: np.ndarray, rng: np.random.Generator) -> Simulated:
+        dt = np.diff(times, prepend=0.0)
+        x = z @ self._chol.T  # correlate the Brownian increments across assets
+        x *= np.sqrt(dt)[None, :, None] * self.vols[None, None, :]
+        x += ((self.rate - self.dividends - 0.5 * self.vols**2)[None, :] * dt[:, None])[None]
+        np.cumsum(x, axis=1, out=x)
+        x += np.log(self.spots)[None, None, :]
+        np.exp(x, out=x)
+        return Simulated(s=x, step_var=(dt[:, None] * self.vols[None, :] ** 2)[None])
+
+
+def _correlation_factor(c: np.ndarray, d: int) -> np.ndarray:
+    """A factor L with L L^T = c, after checking that c is a correlation matrix."""
+    if c.shape != (d, d):
+        raise ModelError(f"correlation has shape {c.shape}; expected ({d}, {d}) for {d} assets")
+    if not np.all(np.isfinite(c)):
+        raise ModelError("correlation has non-finite entries")
+    if not np.allclose(c, c.T, atol=1e-12):
+        raise ModelError("correlation matrix is not symmetric")
+    if not np.allclose(np.diag(c), 1.0, atol=1e-12):
+        raise ModelError(f"correlation matrix must have a unit diagonal; got {np.diag(c).tolist()!r}")
+    if np.any(np.abs(c) > 1 + 1e-12):
+        raise ModelError("correlation entries must lie in [-1, 1]")
+    w, v = np.linalg.eigh(c)
+    if w.min() < -1e-10:
+        raise ModelError(
+            f"correlation matrix is not positive semi-definite (smallest eigenvalue {w.min():.3g}); "
+            "check the pairwise correlations for consistency"
+        )
+    # eigen-factor works for singular (perfectly correlated) matrices where Cholesky fails
+    return v * np.sqrt(np.clip(w, 0.0, None))[None, :]

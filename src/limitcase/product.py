@@ -1,0 +1,194 @@
+"""The product base class and what a payoff sees and returns.
+
+How to subclass (the recipe ``tests/test_product_recipe.py`` runs):
+
+1. Declare parameters as class attributes, ``strike = Param(100.0, low=0.0, doc="...")``.
+2. Fill ``dates(self)``: the observation times in years, increasing, all > 0.
+3. Fill ``payoff(self, obs)`` for a product settled by a formula of the observed values, or
+   ``exercise_dates(self)`` and ``exercise_value(self, obs)`` for early exercise (the engine
+   then finds the exercise policy by Longstaff-Schwartz regression).
+4. Optionally ``reference(self, model)``: a trusted price for when this product is the base
+   case of somebody else's reduction (a closed form from ``limitcase.references``).
+5. Declare ``reductions`` and ``relations`` (see :mod:`limitcase.reduce`).
+
+Shapes. A single-asset product sees ``obs.s`` of shape ``(paths, dates)``; a product with
+``multi_asset = True`` sees ``(paths, dates, assets)`` (even when it has one asset). ``payoff`` returns
+either an array ``(paths,)`` paid at the last date, an array ``(paths, dates)`` of amounts
+paid at each observation date, or a :class:`Cashflows` with explicit payment times. The
+engine discounts; a payoff never does.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from functools import cached_property
+from typing import TYPE_CHECKING, Any, ClassVar
+
+import numpy as np
+
+from .errors import NoReference, ParamError
+from .params import Parametrised
+
+if TYPE_CHECKING:  # pragma: no cover
+    from .models.base import Model
+    from .reduce import Reduction, Relation
+
+__all__ = ["Product", "Observed", "Cashflows"]
+
+
+@dataclass(frozen=True, slots=True)
+class Cashflows:
+    """Amounts and their payment times, for payoffs not settled at the last date.
+
+    ``amount`` has shape ``(paths,)`` or ``(paths, k)``; ``time`` broadcasts against it
+    (a scalar, ``(k,)``, ``(paths,)`` or ``(paths, k)``), in years from today.
+    """
+
+    amount: np.ndarray
+    time: Any
+
+
+class Observed:
+    """The simulated values a product's payoff reads, at the product's own dates.
+
+    Attributes
+    ----------
+    t : ndarray, shape (dates,)
+        The product's observation times.
+    s : ndarray, shape (paths, dates) or (paths, dates, assets)
+        Simulated prices at those times.
+    s0 : float or ndarray (assets,)
+        Prices today.
+    rate : float
+        The model's continuously compounded short rate (for products whose terms use it).
+    step_var : ndarray, broadcastable to ``s``
+        Integrated variance of log-price over each interval ``(t[j-1], t[j]]`` (with
+        ``t[-1] = 0``): what a Brownian-bridge correction needs between dates.
+    """
+
+    __slots__ = ("t", "s", "s0", "rate", "_step_var_fn", "__dict__")
+
+    def __init__(self, t: np.ndarray, s: np.ndarray, s0: Any, rate: float, step_var_fn: Any) -> None:
+        self.t = t
+        self.s = s
+        self.s0 = s0
+        self.rate = rate
+        self._step_var_fn = step_var_fn
+
+    @cached_property
+    def step_var(self) -> np.ndarray:
+        return self._step_var_fn()
+
+    @property
+    def paths(self) -> int:
+        return self.s.shape[0]
+
+
+class Product(Parametrised):
+    """Base of every product: declared parameters, dates and a vectorised payoff.
+
+    Class attributes a subclass may set:
+
+    ``multi_asset``
+        True when the payoff reads several underlyings; then ``n_assets`` (an attribute or a
+        property) says how many, and ``obs.s`` has an asset axis.
+    ``nonnegative``
+        Whether every cash flow must be >= 0 (an option). The engine reports a product
+        that pays a negative amount where none can be as an error.
+    ``abstract``
+        True on a shared base that ``check`` must not collect.
+    ``reductions`` / ``relations``
+        Declared limits and must-hold relations (:mod:`limitcase.reduce`).
+    """
+
+    multi_asset: ClassVar[bool] = False
+    n_assets: int = 1
+    nonnegative: ClassVar[bool] = True
+    abstract: ClassVar[bool] = True
+    reductions: ClassVar[tuple["Reduction", ...]] = ()
+    relations: ClassVar[tuple["Relation", ...]] = ()
+
+    def __init_subclass__(cls, **kwargs: Any) -> None:
+        super().__init_subclass__(**kwargs)
+        if "abstract" not in vars(cls):
+            cls.abstract = False
+
+    # --- hooks -----------------------------------------------------------------------
+    def dates(self) -> np.ndarray:
+        """Observation times in years (increasing, > 0). Every product must fill this."""
+        raise NotImplementedError(f"{type(self).__name__} does not define dates()")
+
+    def payoff(self, obs: Observed) -> np.ndarray | Cashflows:
+        """Cash flows from the observed values (see the module docstring for shapes)."""
+        raise NotImplementedError(
+            f"{type(self).__name__} defines neither payoff() nor exercise_value()"
+        )
+
+    def exercise_dates(self) -> np.ndarray:
+        """Times at which the holder may exercise; empty for a product without that right."""
+        return np.empty(0)
+
+    def exercise_value(self, obs: Observed) -> np.ndarray:
+        """Amount received on exercise at each exercise date, shape ``(paths, n_exercise)``."""
+        raise NotImplementedError(f"{type(self).__name__} has exercise dates but no exercise_value()")
+
+    def regression_state(self, obs: Observed, j: int) -> np.ndarray:
+        """State variables, shape ``(paths, k)``, on which the continuation value at
+        exercise date ``j`` is regressed. Default: the price at that date over today's."""
+        k = int(np.searchsorted(obs.t, self.exercise_dates()[j]))
+        s = obs.s[:, k] if obs.s.ndim == 2 else obs.s[:, k, :]
+        s0 = np.asarray(obs.s0, dtype=float)
+        x = s / s0
+        return x.reshape(x.shape[0], -1)
+
+    def reference(self, model: "Model") -> float:
+        """A trusted price of this product under ``model`` (closed form or numerical)."""
+        raise NoReference(f"{type(self).__name__} has no reference price")
+
+    def reference_source(self) -> str:
+        """Where :meth:`reference` comes from, for the report (override with the formula's name)."""
+        return f"{type(self).__name__}.reference"
+
+    def scenario(self) -> "Model":
+        """The model the shipped checks use for this product (override per family)."""
+        from .models.gbm import BlackScholes
+
+        return BlackScholes()
+
+    # --- derived ---------------------------------------------------------------------
+    @property
+    def early_exercise(self) -> bool:
+        return len(self.exercise_dates()) > 0
+
+    def validated_dates(self) -> np.ndarray:
+        """``dates()`` as a float array, checked increasing and positive."""
+        name = type(self).__name__
+        try:
+            d = np.asarray(self.dates(), dtype=float).reshape(-1)
+        except (TypeError, ValueError) as exc:
+            raise ParamError(f"{name}.dates() did not return numbers: {exc}") from exc
+        if d.size == 0:
+            raise ParamError(f"{name}.dates() is empty; a product needs at least one date")
+        if not np.all(np.isfinite(d)) or d[0] <= 0.0 or np.any(np.diff(d) <= 0.0):
+            raise ParamError(
+                f"{name}.dates() must be finite, > 0 and strictly increasing; got {d[:6]!r}"
+            )
+        ex = np.asarray(self.exercise_dates(), dtype=float).reshape(-1)
+        if ex.size and not np.all(np.isin(ex, d)):
+            raise ParamError(f"{name}.exercise_dates() must be a subset of dates()")
+        return d
+
+    def label(self) -> str:
+        """A short label: class name and the parameters that differ from the defaults."""
+        specs = type(self).param_specs()
+        changed = {k: v for k, v in self.params().items() if v != specs[k].validate(specs[k].default)}
+        if not changed:
+            return type(self).__name__
+        inner = ", ".join(f"{k}={_fmt(v)}" for k, v in changed.items())
+        return f"{type(self).__name__}({inner})"
+
+
+def _fmt(v: Any) -> str:
+    if isinstance(v, float):
+        return "inf" if v == np.inf else f"{v:g}"
+    return repr(v)

@@ -1,0 +1,365 @@
+"""Declared limits and relations, and the reducer that turns them into checks.
+
+A product class declares, as data:
+
+``reductions``
+    :class:`Reduction` entries: which parameters move to which limit and what the product
+    becomes there (a base product with a trusted reference price). Where the reduction
+    holds on every path (a barrier at infinity is never hit), the limit product and the
+    base product are priced on the same paths and compared path by path first.
+``relations``
+    :class:`Identity` (a combination of products that is zero on every path, e.g.
+    in + out - vanilla), :class:`Monotone` (price moves one way in a parameter),
+    :class:`Convex` (price convex in a parameter), :class:`Bound` (a no-arbitrage bound).
+
+The reducer (:func:`checks_for`) instantiates the product at its defaults, applies each
+declaration and returns :class:`Check` records; the suite prices them and the verdict
+module decides.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+from typing import Any, Callable, Mapping, Sequence
+
+import numpy as np
+
+from .engine import PathRule
+from .errors import LimitcaseError, NoReference, ParamError
+from .models.base import Model
+from .product import Product
+
+__all__ = [
+    "Reduction",
+    "Relation",
+    "Identity",
+    "Monotone",
+    "Convex",
+    "Bound",
+    "Check",
+    "checks_for",
+    "limit_product",
+]
+
+Value = Any  # a number, or a callable of the product giving one
+
+
+def _resolve(value: Value, product: Product) -> Any:
+    return value(product) if callable(value) else value
+
+
+@dataclass(frozen=True)
+class Check:
+    """One thing to verify by Monte Carlo: legs priced on common paths, path rules that
+    must hold on every path, and a statistic ``sum(weights * prices)`` compared with
+    ``target`` under ``sense`` (``==``, ``>=`` or ``<=``) and a declared allowance."""
+
+    product: str
+    case: str
+    kind: str
+    legs: tuple[Product, ...] = ()
+    model: Model | None = None
+    weights: tuple[float, ...] = ()
+    target: float = 0.0
+    target_source: str = ""
+    sense: str = "=="
+    rules: tuple[PathRule, ...] = ()
+    allowance: float = 0.0
+    allowance_reason: str = ""
+    note: str = ""
+    error: str | None = None
+
+    @property
+    def label(self) -> str:
+        return f"{self.product}/{self.case}"
+
+
+@dataclass(frozen=True)
+class Reduction:
+    """A degenerate limit of a product.
+
+    Parameters
+    ----------
+    name
+        Case name, e.g. ``"barrier_to_infinity"``.
+    changes
+        Parameter -> limit value (or a callable of the product returning it).
+    becomes
+        Callable of the product *at its limit* returning the base product.
+    exact
+        The limit and the base product pay the same on every path (checked path by path).
+    model_changes
+        Model parameters changed for this case (a Bermudan call needs no dividends to be
+        a European call).
+    reference_model
+        Callable ``(model, product) -> model`` for the base product's reference when the
+        base lives under another model (a basket of identical assets -> one asset).
+        Implies ``exact=False``.
+    allowance, reason
+        A declared bias allowance (a number, or a callable of ``(product, model)``) and
+        why it exists (Longstaff-Schwartz regression bias, discrete monitoring, ...).
+    note
+        The limit behaviour in words, for the dossier.
+    """
+
+    name: str
+    changes: Mapping[str, Value]
+    becomes: Callable[[Product], Product]
+    exact: bool = True
+    model_changes: Mapping[str, Any] = field(default_factory=dict)
+    reference_model: Callable[[Model, Product], Model] | None = None
+    allowance: Any = 0.0
+    reason: str = ""
+    note: str = ""
+
+
+class Relation:
+    """Base of the must-hold relations; subclasses produce their checks."""
+
+    def checks(self, product: Product, model: Model) -> list[Check]:
+        raise NotImplementedError
+
+
+@dataclass(frozen=True)
+class Identity(Relation):
+    """``sum(w_i * product_i) == 0``: on every path if ``pathwise``, else in price.
+
+    ``legs`` is a callable of the product returning ``[(weight, product), ...]``.
+    """
+
+    name: str
+    legs: Callable[[Product], Sequence[tuple[float, Product]]]
+    pathwise: bool = True
+    note: str = ""
+
+    def checks(self, product: Product, model: Model) -> list[Check]:
+        pairs = list(self.legs(product))
+        weights = tuple(float(w) for w, _ in pairs)
+        legs = tuple(p for _, p in pairs)
+        rules = (PathRule(weights, "=="),) if self.pathwise else ()
+        return [
+            Check(
+                product=type(product).__name__,
+                case=self.name,
+                kind="relation",
+                legs=legs,
+                model=model,
+                weights=weights,
+                target=0.0,
+                target_source="identity",
+                sense="==",
+                rules=rules,
+                note=self.note or _combo_text(pairs),
+            )
+        ]
+
+
+@dataclass(frozen=True)
+class Monotone(Relation):
+    """Price increases (``direction=+1``) or decreases (``-1``) in ``param``.
+
+    The product is compared at its default and at ``to`` (a value or a callable of the
+    product) on common paths, so the difference is precise. With ``pathwise=True`` the
+    ordering must also hold on every path (it does for a barrier or a strike).
+    """
+
+    param: str
+    direction: int
+    to: Value
+    pathwise: bool = False
+    name: str = ""
+    note: str = ""
+
+    def checks(self, product: Product, model: Model) -> list[Check]:
+        here = product.params()[self.param]
+        there = _resolve(self.to, product)
+        moved = product.replace(**{self.param: there})
+        up = there > here
+        sense = ">=" if (self.direction > 0) == up else "<="
+        name = self.name or f"{'increasing' if self.direction > 0 else 'decreasing'}_in_{self.param}"
+        rules = (PathRule((1.0, -1.0), sense),) if self.pathwise else ()
+        return [
+            Check(
+                product=type(product).__name__,
+                case=name,
+                kind="relation",
+                legs=(moved, product),
+                model=model,
+                weights=(1.0, -1.0),
+                target=0.0,
+                target_source=f"price at {self.param}={_num(there)} {sense} price at {self.param}={_num(here)}",
+                sense=sense,
+                rules=rules,
+                note=self.note,
+            )
+        ]
+
+
+@dataclass(frozen=True)
+class Convex(Relation):
+    """Price convex in ``param``: ``V(x - h) - 2 V(x) + V(x + h) >= 0`` (``h`` = ``step``)."""
+
+    param: str
+    step: Value
+    pathwise: bool = False
+    name: str = ""
+    note: str = ""
+
+    def checks(self, product: Product, model: Model) -> list[Check]:
+        x = product.params()[self.param]
+        h = _resolve(self.step, product)
+        legs = (product.replace(**{self.param: x - h}), product, product.replace(**{self.param: x + h}))
+        w = (1.0, -2.0, 1.0)
+        return [
+            Check(
+                product=type(product).__name__,
+                case=self.name or f"convex_in_{self.param}",
+                kind="relation",
+                legs=legs,
+                model=model,
+                weights=w,
+                target=0.0,
+                target_source=f"second difference in {self.param} (step {_num(h)}) >= 0",
+                sense=">=",
+                rules=(PathRule(w, ">="),) if self.pathwise else (),
+                note=self.note,
+            )
+        ]
+
+
+@dataclass(frozen=True)
+class Bound(Relation):
+    """A no-arbitrage bound: price ``side`` (``>=`` or ``<=``) ``value(product, model)``.
+
+    ``value`` must come from outside the engine (a discount factor, a forward, a closed
+    form). ``pathwise_leg``, if given, is a callable of the product returning a product whose
+    cash flow bounds this one's on every path (a call never pays more than the asset).
+    """
+
+    name: str
+    side: str
+    value: Callable[[Product, Model], float]
+    pathwise_leg: Callable[[Product], Product] | None = None
+    source: str = ""
+    note: str = ""
+
+    def checks(self, product: Product, model: Model) -> list[Check]:
+        if self.side not in (">=", "<="):
+            raise ParamError(f"Bound {self.name!r}: side={self.side!r} must be '>=' or '<='")
+        target = float(self.value(product, model))
+        legs: tuple[Product, ...] = (product,)
+        weights: tuple[float, ...] = (1.0,)
+        rules: tuple[PathRule, ...] = ()
+        if self.pathwise_leg is not None:
+            legs = (product, self.pathwise_leg(product))
+            weights = (1.0, 0.0)
+            rules = (PathRule((1.0, -1.0), self.side),)
+        return [
+            Check(
+                product=type(product).__name__,
+                case=self.name,
+                kind="relation",
+                legs=legs,
+                model=model,
+                weights=weights,
+                target=target,
+                target_source=self.source or f"bound {self.side} {target:.6g}",
+                sense=self.side,
+                rules=rules,
+                note=self.note,
+            )
+        ]
+
+
+def limit_product(product: Product, reduction: Reduction) -> Product:
+    """The product with the reduction's parameters moved to their limit."""
+    changes = {k: _resolve(v, product) for k, v in reduction.changes.items()}
+    return product.replace(**changes)
+
+
+def reduction_check(product: Product, model: Model, red: Reduction) -> Check:
+    """The check of one declared reduction (an error record if it cannot be built)."""
+    name = type(product).__name__
+    try:
+        if red.model_changes:
+            model = model.replace(**dict(red.model_changes))
+        at_limit = limit_product(product, red)
+        base = red.becomes(at_limit)
+        ref_model = red.reference_model(model, at_limit) if red.reference_model else model
+        target = float(base.reference(ref_model))
+        allowance = float(red.allowance(at_limit, model)) if callable(red.allowance) else float(red.allowance)
+    except NoReference as exc:
+        return Check(product=name, case=red.name, kind="reduction", error=f"no reference for the base case: {exc}")
+    except LimitcaseError as exc:
+        return Check(product=name, case=red.name, kind="reduction", error=f"cannot build the limit case: {exc}")
+    except Exception as exc:  # declaration code of the product failed
+        return Check(
+            product=name, case=red.name, kind="reduction",
+            error=f"the reduction's declaration raised {type(exc).__name__}: {exc}",
+        )
+    exact = red.exact and red.reference_model is None
+    legs: tuple[Product, ...] = (at_limit, base) if exact else (at_limit,)
+    weights = (1.0, 0.0) if exact else (1.0,)
+    rules = (PathRule((1.0, -1.0), "=="),) if exact else ()
+    changes = ", ".join(f"{k}={_num(v)}" for k, v in at_limit.params().items() if k in red.changes)
+    note = red.note or f"{changes}: becomes {base.label()}"
+    return Check(
+        product=name,
+        case=red.name,
+        kind="reduction",
+        legs=legs,
+        model=model,
+        weights=weights,
+        target=target,
+        target_source=f"{base.label()} by {base.reference_source()}",
+        sense="==",
+        rules=rules,
+        allowance=allowance,
+        allowance_reason=red.reason,
+        note=note,
+    )
+
+
+def checks_for(product: Product | type[Product], model: Model | None = None) -> list[Check]:
+    """All declared reductions and relations of a product, as checks.
+
+    ``product`` may be a class (instantiated at its defaults) or an instance; ``model``
+    defaults to the product's scenario.
+    """
+    if isinstance(product, type):
+        product = product()
+    model = product.scenario() if model is None else model
+    out = [reduction_check(product, model, red) for red in type(product).reductions]
+    name = type(product).__name__
+    for rel in type(product).relations:
+        try:
+            out.extend(rel.checks(product, model))
+        except Exception as exc:
+            out.append(
+                Check(
+                    product=name,
+                    case=getattr(rel, "name", "") or type(rel).__name__,
+                    kind="relation",
+                    error=f"the relation's declaration raised {type(exc).__name__}: {exc}",
+                )
+            )
+    return out
+
+
+def _num(v: Any) -> str:
+    if isinstance(v, float):
+        if math.isinf(v):
+            return "inf" if v > 0 else "-inf"
+        return f"{v:g}"
+    return str(v)
+
+
+def _combo_text(pairs: Sequence[tuple[float, Product]]) -> str:
+    parts = []
+    for w, p in pairs:
+        sign = "+" if w >= 0 else "-"
+        mag = "" if abs(w) == 1 else f"{abs(w):g} "
+        parts.append(f"{sign} {mag}{p.label()}")
+    text = " ".join(parts).lstrip("+ ")
+    return f"{text} = 0 on every path"
