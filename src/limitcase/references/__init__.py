@@ -20,6 +20,15 @@ from limitcase.references.barriers import (
     discrete_barrier_option,
 )
 from limitcase.references.digitals import asset_or_nothing, cash_or_nothing, gap_option
+from limitcase.references.asians import geometric_asian, geometric_asian_continuous
+from limitcase.references.lookbacks import lookback_fixed, lookback_floating
+from limitcase.references.exotics import (
+    forward_start,
+    kirk_spread_approx,
+    margrabe_exchange,
+    power_option,
+    simple_chooser,
+)
 
 __all__ = [
     # blackscholes
@@ -38,6 +47,18 @@ __all__ = [
     "asset_or_nothing",
     "cash_or_nothing",
     "gap_option",
+    # asians
+    "geometric_asian",
+    "geometric_asian_continuous",
+    # lookbacks
+    "lookback_fixed",
+    "lookback_floating",
+    # exotics
+    "forward_start",
+    "kirk_spread_approx",
+    "margrabe_exchange",
+    "power_option",
+    "simple_chooser",
 ]
 
 # numerical references
