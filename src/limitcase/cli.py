@@ -23,6 +23,7 @@ from .cli_support import (
     common_run_options,
     handle_errors,
     select_checks,
+    write_outputs,
 )
 
 @click.group(context_settings={"help_option_names": ["-h", "--help"]})
@@ -42,13 +43,13 @@ def main() -> None:
               help="Pilot paths for Longstaff-Schwartz policies (default 65536).")
 @handle_errors
 def check(paths_in: tuple[str, ...], paths: int, seed: int, alpha: float, json_path: str | None,
-          debug: bool, selects: tuple[str, ...], regression_paths: int | None) -> None:
+          junit_path: str | None, debug: bool, selects: tuple[str, ...], regression_paths: int | None) -> None:
     """Run every declared reduction and relation of the products in PATH (files or
     folders of .py files; default: the shipped catalogue)."""
     from .engine import DEFAULT_REGRESSION_PATHS
     from .loader import load_products
     from .reduce import checks_for
-    from .report import render_summary, render_table, write_json
+    from .report import render_summary, render_table
     from .suite import run_checks
 
     products = load_products(paths_in)
@@ -67,11 +68,9 @@ def check(paths_in: tuple[str, ...], paths: int, seed: int, alpha: float, json_p
         progress.close()
     click.echo(render_table(result.outcomes))
     click.echo("")
-    where = " ".join(paths_in)
-    click.echo(render_summary(result, reproduce=f"limitcase check {where}".rstrip()))
-    if json_path:
-        write_json(json_path, result, "check")
-        click.echo(f"wrote {json_path}")
+    reproduce = f"limitcase check {' '.join(paths_in)}".rstrip()
+    click.echo(render_summary(result, reproduce=reproduce))
+    write_outputs(result, "check", json_path, junit_path, reproduce)
     sys.exit(EXIT_OK if result.ok else EXIT_FAIL)
 
 

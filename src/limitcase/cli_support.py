@@ -19,7 +19,7 @@ from .suite import DEFAULT_ALPHA, DEFAULT_PATHS, DEFAULT_SEED
 
 __all__ = [
     "EXIT_OK", "EXIT_FAIL", "EXIT_INPUT", "InputFailure", "handle_errors", "show_progress",
-    "Progress", "common_run_options", "select_checks",
+    "Progress", "common_run_options", "select_checks", "write_outputs",
 ]
 
 EXIT_OK, EXIT_FAIL, EXIT_INPUT = 0, 1, 2
@@ -91,6 +91,8 @@ def common_run_options(fn: Callable[..., Any]) -> Callable[..., Any]:
                      help="Family-wise false-alarm rate of the run (Holm's correction)."),
         click.option("--json", "json_path", type=click.Path(dir_okay=False, writable=True), default=None,
                      help="Write every case to this JSON file."),
+        click.option("--junit", "junit_path", type=click.Path(dir_okay=False, writable=True), default=None,
+                     help="Write JUnit XML, one testcase per case, to this file."),
         click.option("--debug", is_flag=True, help="Show tracebacks for bad input."),
     ]
     for opt in reversed(opts):
@@ -103,3 +105,16 @@ def select_checks(checks: Sequence[Any], patterns: Sequence[str]) -> list[Any]:
     if not patterns:
         return list(checks)
     return [c for c in checks if any(p in f"{c.product}/{c.case}" for p in patterns)]
+
+
+def write_outputs(result: Any, command: str, json_path: str | None, junit_path: str | None, reproduce: str) -> None:
+    """Write the JSON and JUnit files a command was asked for, and say so."""
+    from .report.jsonfile import write_json
+    from .report.junit import write_junit
+
+    if json_path:
+        write_json(json_path, result, command)
+        click.echo(f"wrote {json_path}")
+    if junit_path:
+        write_junit(junit_path, result, command, reproduce)
+        click.echo(f"wrote {junit_path}")

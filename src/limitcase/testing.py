@@ -1,0 +1,61 @@
+"""Helpers for test suites: run a product's declared checks, assert they pass, or assert
+that a deliberately broken twin is caught.
+
+Used by the project's own tests and meant for a team's: ``assert_all_pass(MyProduct)`` in
+a test function runs every reduction and relation of ``MyProduct`` with Holm's correction
+over its checks.
+"""
+
+from __future__ import annotations
+
+from typing import Sequence
+
+from .models.base import Model
+from .product import Product
+from .reduce import checks_for
+from .suite import DEFAULT_ALPHA, DEFAULT_SEED, RunResult, run_checks
+from .report.terminal import render_table
+
+__all__ = ["run_product", "assert_all_pass", "assert_caught"]
+
+
+def run_product(
+    product: Product | type[Product],
+    *,
+    paths: int = 40_000,
+    seed: int = DEFAULT_SEED,
+    alpha: float = DEFAULT_ALPHA,
+    select: Sequence[str] = (),
+    model: Model | None = None,
+) -> RunResult:
+    """Run the declared checks of ``product`` (optionally only cases named in ``select``)."""
+    checks = checks_for(product, model)
+    if select:
+        checks = [c for c in checks if c.case in select]
+        missing = set(select) - {c.case for c in checks}
+        if missing:
+            raise AssertionError(f"no such case(s) {sorted(missing)} on {product!r}")
+    return run_checks(checks, paths=paths, seed=seed, alpha=alpha)
+
+
+def assert_all_pass(product: Product | type[Product], **kwargs) -> RunResult:
+    """Every declared check of ``product`` passes (raises AssertionError with the table)."""
+    result = run_product(product, **kwargs)
+    if not result.outcomes:
+        raise AssertionError(f"{product!r} declares no reductions or relations")
+    if not result.ok:
+        bad = [f"{o.case}: {o.verdict} ({o.message})" for o in result.outcomes if o.verdict != "pass"]
+        raise AssertionError("\n".join(bad) + "\n" + render_table(result.outcomes))
+    return result
+
+
+def assert_caught(product: Product | type[Product], case: str, **kwargs) -> RunResult:
+    """The check named ``case`` of a broken ``product`` fails (or errors): the bug is seen."""
+    result = run_product(product, select=(case,), **kwargs)
+    o = result.outcomes[0]
+    if o.verdict == "pass":
+        raise AssertionError(
+            f"{case} did not catch the broken {product!r}: value {o.value} +/- {o.stderr}, "
+            f"reference {o.reference}, z {o.z}"
+        )
+    return result
