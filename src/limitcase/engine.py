@@ -156,8 +156,9 @@ class _Leg:
         ex = np.asarray(product.exercise_dates(), dtype=float).reshape(-1)
         self.exercise_cols = np.searchsorted(self.dates, ex)
         self.s0 = model.initial() if product.multi_asset else float(model.initial()[0])
+        self.dividend = model.dividend_yields() if product.multi_asset else float(model.dividend_yields()[0])
 
-    def observe(self, sim: Simulated, rate: float) -> Observed:
+    def observe(self, sim: Simulated, rate: float, uniforms: Callable[[], np.ndarray] | None = None) -> Observed:
         s = sim.s[:, self.sel, :]
         if not self.product.multi_asset:
             s = s[:, :, 0]
@@ -170,7 +171,14 @@ class _Leg:
             v = np.diff(cum, axis=1, prepend=0.0)
             return v if self.product.multi_asset else v[:, :, 0]
 
-        return Observed(self.dates, s, self.s0, rate, step_var)
+        def leg_uniforms() -> np.ndarray:
+            u = uniforms()[:, idx, :]  # type: ignore[misc]
+            u.flags.writeable = False
+            return u if self.product.multi_asset else u[:, :, 0]
+
+        return Observed(
+            self.dates, s, self.s0, rate, step_var, self.dividend, leg_uniforms if uniforms is not None else None
+        )
 
 
 def _present_values(leg: _Leg, obs: Observed, rate: float, policy: Any) -> np.ndarray:
@@ -339,9 +347,17 @@ def evaluate(
         from .exercise import fit_policy
 
         pilot_sim = _simulate_blocks(model, grid, regression_paths, seed_seq, key, 0, k_normals, _plain_normals)
+        pilot_u: list[np.ndarray] = []
+
+        def pilot_uniforms() -> np.ndarray:
+            if not pilot_u:
+                g = block_generator(seed_seq, key, 2, 0)
+                pilot_u.append(g.random(pilot_sim.s.shape))
+            return pilot_u[0]
+
         for i, leg in enumerate(legs):
             if leg.product.early_exercise:
-                policies[i] = fit_policy(leg.product, leg.observe(pilot_sim, rate), rate)
+                policies[i] = fit_policy(leg.product, leg.observe(pilot_sim, rate, pilot_uniforms), rate)
 
     moments = _Moments(len(legs))
     rule_results = [PathRuleResult(rule) for rule in rules]
@@ -377,9 +393,16 @@ def _block_values(
     draw(g, z, block)
     sim = model.simulate(grid, z, g)
     rate = model.short_rate
+    shared: list[np.ndarray] = []
+
+    def uniforms() -> np.ndarray:  # drawn once per block, on first use, for every leg
+        if not shared:
+            shared.append(g.random((size, len(grid), sim.s.shape[2])))
+        return shared[0]
+
     x = np.empty((size, len(legs)))
     for i, leg in enumerate(legs):
-        x[:, i] = _present_values(leg, leg.observe(sim, rate), rate, policies[i])
+        x[:, i] = _present_values(leg, leg.observe(sim, rate, uniforms), rate, policies[i])
     return x
 
 

@@ -61,23 +61,46 @@ class Observed:
         Prices today.
     rate : float
         The model's continuously compounded short rate (for products whose terms use it).
+    dividend : float or ndarray (assets,)
+        The model's continuous dividend yield(s).
     step_var : ndarray, broadcastable to ``s``
         Integrated variance of log-price over each interval ``(t[j-1], t[j]]`` (with
         ``t[-1] = 0``): what a Brownian-bridge correction needs between dates.
+    uniforms : ndarray, shape like ``s``
+        Independent U(0, 1) draws, one per path, date (and asset), drawn on first use from
+        the path block's own stream and shared by every product of the case (so sampling
+        the extreme of a Brownian bridge between dates keeps common random numbers).
     """
 
-    __slots__ = ("t", "s", "s0", "rate", "_step_var_fn", "__dict__")
+    __slots__ = ("t", "s", "s0", "rate", "dividend", "_step_var_fn", "_uniforms_fn", "__dict__")
 
-    def __init__(self, t: np.ndarray, s: np.ndarray, s0: Any, rate: float, step_var_fn: Any) -> None:
+    def __init__(
+        self,
+        t: np.ndarray,
+        s: np.ndarray,
+        s0: Any,
+        rate: float,
+        step_var_fn: Any,
+        dividend: Any = 0.0,
+        uniforms_fn: Any = None,
+    ) -> None:
         self.t = t
         self.s = s
         self.s0 = s0
         self.rate = rate
+        self.dividend = dividend
         self._step_var_fn = step_var_fn
+        self._uniforms_fn = uniforms_fn
 
     @cached_property
     def step_var(self) -> np.ndarray:
         return self._step_var_fn()
+
+    @cached_property
+    def uniforms(self) -> np.ndarray:
+        if self._uniforms_fn is None:
+            raise AttributeError("uniforms are not available outside the engine")
+        return self._uniforms_fn()
 
     @property
     def paths(self) -> int:
@@ -148,6 +171,16 @@ class Product(Parametrised):
     def reference_source(self) -> str:
         """Where :meth:`reference` comes from, for the report (override with the formula's name)."""
         return f"{type(self).__name__}.reference"
+
+    def control_variates(self, model: "Model") -> tuple[tuple["Product", float], ...]:
+        """Products whose exact price under ``model`` is known, highly correlated with this
+        one: ``((product, exact_price), ...)``. Used by variance reduction; default none."""
+        return ()
+
+    def formula(self) -> Any:
+        """The payoff as a sympy expression of the observed values, where the product can
+        state one (for the dossier and the symbolic cross-check); default ``None``."""
+        return None
 
     def scenario(self) -> "Model":
         """The model the shipped checks use for this product (override per family)."""
