@@ -21,16 +21,18 @@ from limitcase.references.blackscholes import (
 __all__ = ["cash_or_nothing", "asset_or_nothing", "gap_option"]
 
 
-def _exceed_probs(
+def _tail_probs(
     s: np.ndarray, x: np.ndarray, t: np.ndarray, r: np.ndarray, q: np.ndarray, v: np.ndarray
-) -> tuple[np.ndarray, np.ndarray]:
-    r"""Return :math:`(N(d_1), N(d_2))` for level x: the probabilities that S_T > x under
-    the share measure and under the risk-neutral measure.
+) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+    r"""Return :math:`(N(d_1), N(d_2), N(-d_1), N(-d_2))` for the level x: the probabilities
+    of :math:`S_T > x` and of :math:`S_T < x`, under the share measure and under the
+    risk-neutral measure.
 
-    Degenerate cases by their limits: when :math:`\sigma\sqrt T = 0` the terminal price is
-    the forward :math:`F = S e^{(r-q)T}` and the probability is 1 if F > x, 0 if F < x and
-    1/2 if F == x (the limit of N(d) as :math:`\sigma\sqrt T \to 0` at the money); x == 0 with
-    S > 0 gives 1; S == 0 gives 0 unless x == 0 (then 1/2, by the same convention).
+    Degenerate cases by their limits: when :math:`\sigma\sqrt T = 0` and S > 0 the terminal
+    price is the forward :math:`F = S e^{(r-q)T}`; S_T > x has probability 1 if F > x, 0 if
+    F < x and 1/2 if F == x (the limit of N(d) as :math:`\sigma\sqrt T \to 0` at the
+    money), and S_T < x the complement. x == 0 with S > 0 gives S_T > x surely. S == 0
+    gives S_T = 0 surely: S_T > x never, S_T < x iff x > 0.
     """
     sd = v * np.sqrt(t)
     regular = (sd > 0) & (x > 0) & (s > 0)
@@ -39,9 +41,16 @@ def _exceed_probs(
         sd_safe = np.where(regular, sd, 1.0)
         d1 = np.log(np.where(regular, fwd, 1.0) / np.where(regular, x, 1.0)) / sd_safe + 0.5 * sd_safe
         d2 = d1 - sd_safe
-    det = np.where(fwd > x, 1.0, np.where(fwd < x, 0.0, 0.5))
-    det = np.where((x == 0) & (s > 0), 1.0, det)
-    return np.where(regular, ndtr(d1), det), np.where(regular, ndtr(d2), det)
+    up = np.where(fwd > x, 1.0, np.where(fwd < x, 0.0, 0.5))
+    up = np.where((x == 0) & (s > 0), 1.0, up)
+    up = np.where(s == 0, 0.0, up)
+    down = np.where(s == 0, np.where(x > 0, 1.0, 0.0), 1.0 - up)
+    return (
+        np.where(regular, ndtr(d1), up),
+        np.where(regular, ndtr(d2), up),
+        np.where(regular, ndtr(-d1), down),
+        np.where(regular, ndtr(-d2), down),
+    )
 
 
 def cash_or_nothing(
@@ -78,7 +87,7 @@ def cash_or_nothing(
 
     With :math:`\sigma\sqrt T = 0` the payment is certain (F > K for the call), absent, or
     worth half (F == K exactly, the vol -> 0 limit of the formula); see the private
-    helper ``_exceed_probs`` for the other degenerate cases. Call + put = :math:`Q e^{-rT}`.
+    helper ``_tail_probs`` for the other degenerate cases. Call + put = :math:`Q e^{-rT}`.
 
     References
     ----------
@@ -91,8 +100,8 @@ def cash_or_nothing(
     s, k, t, r, q, v = _market(func, spot, strike, maturity, rate, dividend, vol)
     cq = _as_float("cash", cash, func)
     _check("cash", cq, func, fix="pass a finite cash amount")
-    _, n2 = _exceed_probs(s, k, t, r, q, v)
-    prob = n2 if call else 1.0 - n2
+    _, up2, _, down2 = _tail_probs(s, k, t, r, q, v)
+    prob = up2 if call else down2
     return _out(cq * np.exp(-r * t) * prob)
 
 
@@ -137,8 +146,8 @@ def asset_or_nothing(
     func = "asset_or_nothing"
     call = _check_kind(kind, func) == "call"
     s, k, t, r, q, v = _market(func, spot, strike, maturity, rate, dividend, vol)
-    n1, _ = _exceed_probs(s, k, t, r, q, v)
-    prob = n1 if call else 1.0 - n1
+    up1, _, down1, _ = _tail_probs(s, k, t, r, q, v)
+    prob = up1 if call else down1
     return _out(s * np.exp(-q * t) * prob)
 
 
@@ -201,11 +210,11 @@ def gap_option(
     _check("trigger", trig, func, low=0.0, fix="a trigger is a non-negative price level")
     s, k2, t, r, q, v = _market(func, spot, strike, maturity, rate, dividend, vol)
     s, k2, t, r, q, v, k1 = np.broadcast_arrays(s, k2, t, r, q, v, trig)
-    n1, n2 = _exceed_probs(s, k1, t, r, q, v)
+    up1, up2, down1, down2 = _tail_probs(s, k1, t, r, q, v)
     pf = s * np.exp(-q * t)
     kd = k2 * np.exp(-r * t)
     if call:
-        price = pf * n1 - kd * n2
+        price = pf * up1 - kd * up2
     else:
-        price = kd * (1.0 - n2) - pf * (1.0 - n1)
+        price = kd * down2 - pf * down1
     return _out(price)
