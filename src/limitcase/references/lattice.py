@@ -204,7 +204,7 @@ def _crr_price(payoff: Callable[[Any], Any], kinks: list[float], s: float, t: fl
         ex_c: str | np.ndarray = exercise
         ex_f: str | np.ndarray = exercise
     else:
-        m = _schedule_multiple(exercise, t, 100_000)
+        m = _schedule_multiple(exercise, t, 2 * steps)
         if m is not None:
             n = m * max(1, math.ceil(steps / m))
         else:
@@ -318,8 +318,9 @@ def lattice_price(
     **Bermudan.** Exercise times are put exactly on steps of a Cox-Ross-Rubinstein
     tree: the step count is raised to a multiple of the least M with every
     :math:`t_i/T` a multiple of 1/M (e.g. 50 dates a year give M = 50 T); if no such
-    M <= 100000 exists, each time moves to the nearest step (shift <= T/(2n), an O(T/n)
-    error that extrapolation does not remove) with a warning. The scheme is that of
+    M <= 2 ``steps`` exists (so that the cost stays within four times that of ``steps``),
+    each time moves to the nearest step (shift <= T/(2n), an O(T/n) error that
+    extrapolation does not remove) with a warning. The scheme is that of
     :func:`lattice_price_payoff`, with :math:`g(S) = (K - S)^+` or :math:`(S - K)^+` and
     the strike as the declared kink.
 
