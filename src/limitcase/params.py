@@ -28,8 +28,9 @@ class Param:
     low, high
         The ends of the allowed range; either may be infinite.
     low_open, high_open
-        Whether an end is excluded from the range (``(0, inf)`` for a volatility that must
-        be positive, ``[0, inf]`` for a barrier that may be pushed to infinity).
+        Whether an end is excluded from the range (``(0, 5]`` for a volatility that must
+        be positive, ``[0, inf]`` for a barrier that may be pushed to infinity). An
+        infinite end is part of the range unless declared open.
     integer
         The value must be a whole number (a count of fixings, of exercise dates).
     doc
@@ -68,8 +69,8 @@ class Param:
 
     def range_text(self) -> str:
         """The allowed range in interval notation, e.g. ``(0, inf)`` or ``[1, 500] integer``."""
-        left = "(" if self.low_open or self.low == -math.inf else "["
-        right = ")" if self.high_open or self.high == math.inf else "]"
+        left = "(" if self.low_open else "["
+        right = ")" if self.high_open else "]"
         text = f"{left}{_fmt(self.low)}, {_fmt(self.high)}{right}"
         return text + (" integer" if self.integer else "")
 
