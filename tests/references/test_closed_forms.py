@@ -313,3 +313,44 @@ def test_other_bad_input(call, args, match):
 def test_param_error_is_a_value_error():
     with pytest.raises(ValueError):
         black_scholes(**dict(BASE, vol=-1.0))
+
+
+# ---------------------------------------------------------------------------------------
+# further published European values
+# ---------------------------------------------------------------------------------------
+@pytest.mark.published
+@pytest.mark.parametrize(
+    "spot, vol, maturity, expected",
+    # F. A. Longstaff and E. S. Schwartz, "Valuing American Options by Simulation: A Simple
+    # Least-Squares Approach", Review of Financial Studies 14(1), 2001, Table 1, column
+    # "European" (closed-form European put): K=40, r=0.06, no dividend. From memory,
+    # recomputed by quadrature in the same test; printed to 3 decimals.
+    [
+        (36.0, 0.2, 1.0, 3.844),
+        (36.0, 0.2, 2.0, 3.763),
+        (36.0, 0.4, 1.0, 6.711),
+        (36.0, 0.4, 2.0, 7.700),
+        (38.0, 0.2, 1.0, 2.852),
+        (40.0, 0.2, 1.0, 2.066),
+        (40.0, 0.4, 1.0, 5.060),
+        (42.0, 0.2, 1.0, 1.465),
+        (44.0, 0.2, 1.0, 1.017),
+        (44.0, 0.4, 2.0, 5.202),
+    ],
+)
+def test_longstaff_schwartz_european_column(spot, vol, maturity, expected):
+    price = black_scholes(spot, 40.0, maturity, 0.06, 0.0, vol, "put")
+    assert abs(price - expected) <= 5e-4
+    ref, err = lognormal_quad(lambda s: max(40.0 - s, 0.0), spot, maturity, 0.06, 0.0, vol, breaks=(40.0,))
+    assert abs(price - ref) <= quad_tolerance(err, 40.0)
+
+
+@pytest.mark.published
+def test_hull_european_put_in_crr_example():
+    # J. C. Hull, Options, Futures, and Other Derivatives, basic numerical procedures chapter,
+    # American put on a non-dividend stock, S=K=50, r=0.10, sigma=0.40, T=5/12: the European
+    # (Black-Scholes) put is quoted as 4.08 (from memory; recomputed by quadrature).
+    price = black_scholes(50.0, 50.0, 5.0 / 12.0, 0.10, 0.0, 0.40, "put")
+    assert abs(price - 4.08) <= 5e-3
+    ref, err = lognormal_quad(lambda s: max(50.0 - s, 0.0), 50.0, 5.0 / 12.0, 0.10, 0.0, 0.40, breaks=(50.0,))
+    assert abs(price - ref) <= quad_tolerance(err, 50.0)
