@@ -192,18 +192,18 @@ def barrier_option(
 
     Then (X = strike):
 
-    ===================  ================  ================
-    kind                 X > H             X < H
-    ===================  ================  ================
-    down-and-in call     C + E             A - B + D + E
-    up-and-in call       A + E             B - C + D + E
-    down-and-in put      B - C + D + E     A + E
-    up-and-in put        A - B + D + E     C + E
-    down-and-out call    A - C + F         B - D + F
-    up-and-out call      F                 A - B + C - D + F
-    down-and-out put     A - B + C - D + F F
-    up-and-out put       B - D + F         A - C + F
-    ===================  ================  ================
+    ===================  ===================  ===================
+    kind                 X > H                X < H
+    ===================  ===================  ===================
+    down-and-in call     C + E                A - B + D + E
+    up-and-in call       A + E                B - C + D + E
+    down-and-in put      B - C + D + E        A + E
+    up-and-in put        A - B + D + E        C + E
+    down-and-out call    A - C + F            B - D + F
+    up-and-out call      F                    A - B + C - D + F
+    down-and-out put     A - B + C - D + F    F
+    up-and-out put       B - D + F            A - C + F
+    ===================  ===================  ===================
 
     E is the rebate paid at expiry if the barrier is never touched (E/R e^{-rT} is the
     no-touch probability); F is the rebate paid at the hitting time. A knock-out whose
@@ -352,10 +352,12 @@ def discrete_barrier_option(
     :func:`barrier_option` at the barrier moved away from the spot by
     :func:`bgk_barrier_shift`; its error is :math:`o(1/\sqrt m)` in the number m of
     monitoring dates, with no usable bound at finite m, and it is poor when the barrier
-    is close to the spot (a few :math:`\sigma\sqrt{\Delta t}`). For example with
-    S = K = 100, sigma = 0.3, r = 0.1, q = 0, T = 0.2, m = 50, a down-and-out call with
-    H = 99.5 is worth about 1.936 by backward induction, while the corrected formula
-    is off by several percent.
+    is close to the spot (within a few :math:`\sigma\sqrt{\Delta t}`). Measured for a
+    down-and-out call, S = K = 100, sigma = 0.3, r = 0.1, q = 0, T = 0.2, m = 50 dates,
+    against backward induction on a fine grid (true discrete price / this approximation):
+    H = 85: 6.3222 / 6.3223; H = 95: 4.9068 / 4.9071; H = 99: 2.3364 / 2.2713 (-2.8%);
+    H = 99.5: 1.9359 / 1.7933 (-7.4%). The continuous prices are 6.3076, 4.3975, 1.1708
+    and 0.6048.
 
     Parameters
     ----------
