@@ -2,5 +2,16 @@
 
 from .base import Degeneration, Model, Simulated
 from .gbm import BlackScholes, MultiBlackScholes
+from .heston import HESTON_SCHEMES, Heston
+from .merton import Merton
 
-__all__ = ["Model", "Simulated", "Degeneration", "BlackScholes", "MultiBlackScholes"]
+__all__ = [
+    "Model",
+    "Simulated",
+    "Degeneration",
+    "BlackScholes",
+    "MultiBlackScholes",
+    "Heston",
+    "HESTON_SCHEMES",
+    "Merton",
+]
