@@ -62,3 +62,21 @@ __all__ = [
 ]
 
 # numerical references
+from limitcase.references.heston import heston_charfn, heston_price
+from limitcase.references.lattice import lattice_price, lattice_price_payoff
+from limitcase.references.merton import merton_charfn, merton_jump_price
+from limitcase.references.quadrature import european_by_quadrature
+
+__all__ += [
+    # lattice
+    "lattice_price",
+    "lattice_price_payoff",
+    # quadrature
+    "european_by_quadrature",
+    # heston
+    "heston_charfn",
+    "heston_price",
+    # merton
+    "merton_charfn",
+    "merton_jump_price",
+]
