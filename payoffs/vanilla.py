@@ -1,19 +1,32 @@
-"""European call and put, and the prepaid forward: the base cases most reductions end on."""
+"""The base cases most reductions end on: prepaid forward, forward contract, zero-coupon
+bond, European call and put, straddle.
+
+Each states its payoff, its Black-Scholes price (``reference``) and the limits and
+relations it must meet: put-call parity path by path, the model-free bounds
+``0 <= call <= S0 exp(-qT)`` and ``put <= K exp(-rT)``, monotone and convex in the strike.
+"""
 
 from __future__ import annotations
 
+import math
+
 import numpy as np
 
-from limitcase import Param, Product, Reduction
+from limitcase import Bound, Convex, Identity, Monotone, Param, Product, Reduction
 from limitcase.references import black_scholes, prepaid_forward
 
-from ._common import bs_inputs
+from ._common import bs_inputs, market, own_closed_form
 
 
 class PrepaidForward(Product):
-    """Pays the asset S(T) at T. Worth S0 exp(-q T) today, whatever the model."""
+    """Pays the asset S(T) at T. Worth S0 exp(-q T) today, whatever the model.
+
+    Limits: none; its own check is the martingale property of the discounted asset.
+    """
 
     maturity = Param(1.0, low=0.0, low_open=True, doc="delivery date in years")
+
+    reductions = (own_closed_form(note="E[exp(-rT) S(T)] = S0 exp(-qT): the discounted asset is a martingale"),)
 
     def dates(self) -> np.ndarray:
         return np.array([self.maturity])
@@ -22,16 +35,93 @@ class PrepaidForward(Product):
         return obs.s[:, -1]
 
     def reference(self, model):
-        return prepaid_forward(float(model.initial()[0]), self.maturity, float(model.dividend_yields()[0]))
+        spot, _, dividend = market(model)
+        return prepaid_forward(spot, self.maturity, dividend)
 
     def reference_source(self) -> str:
         return "S0 exp(-qT)"
+
+
+class ZeroCouponBond(Product):
+    """Pays the cash amount C at T, on every path. Worth C exp(-rT).
+
+    Limits: none; its own check is the engine's discounting.
+    """
+
+    cash = Param(1.0, low=0.0, doc="amount paid at maturity")
+    maturity = Param(1.0, low=0.0, low_open=True, doc="payment date in years")
+
+    reductions = (
+        own_closed_form(
+            allowance=lambda p, m: 1e-12 * p.cash,
+            reason="floating-point rounding: the mean of a constant over blocks of paths is off "
+            "by ~1e-16 relative, and its standard error is rounding noise, not zero",
+            note="a sure amount C at T is worth C exp(-rT)",
+        ),
+    )
+
+    def dates(self) -> np.ndarray:
+        return np.array([self.maturity])
+
+    def payoff(self, obs):
+        return np.full(obs.paths, self.cash)
+
+    def reference(self, model):
+        return self.cash * math.exp(-model.short_rate * self.maturity)
+
+    def reference_source(self) -> str:
+        return "C exp(-rT)"
+
+
+class ForwardContract(Product):
+    """Pays S(T) - K at T (negative when S(T) < K). Worth S0 exp(-qT) - K exp(-rT).
+
+    Limits: strike 0 -> the prepaid forward.
+    """
+
+    nonnegative = False
+    strike = Param(100.0, low=0.0, doc="delivery price")
+    maturity = Param(1.0, low=0.0, low_open=True, doc="delivery date in years")
+
+    reductions = (
+        Reduction(
+            "zero_strike",
+            {"strike": 0.0},
+            becomes=lambda p: PrepaidForward(maturity=p.maturity),
+            note="strike 0: pays S(T) on every path, the prepaid forward",
+        ),
+        own_closed_form(note="S0 exp(-qT) - K exp(-rT), whatever the model"),
+    )
+
+    def dates(self) -> np.ndarray:
+        return np.array([self.maturity])
+
+    def payoff(self, obs):
+        return obs.s[:, -1] - self.strike
+
+    def reference(self, model):
+        spot, rate, dividend = market(model)
+        return prepaid_forward(spot, self.maturity, dividend) - self.strike * math.exp(-rate * self.maturity)
+
+    def reference_source(self) -> str:
+        return "S0 exp(-qT) - K exp(-rT)"
+
+
+def _put(p: Product) -> "EuropeanPut":
+    return EuropeanPut(strike=p.strike, maturity=p.maturity)
+
+
+def _call(p: Product) -> "EuropeanCall":
+    return EuropeanCall(strike=p.strike, maturity=p.maturity)
 
 
 class EuropeanCall(Product):
     """Pays max(S(T) - K, 0) at T.
 
     Limits: strike 0 -> the prepaid forward (pays S(T)).
+    Relations: call - put = forward (path by path); S0 exp(-qT) - K exp(-rT) <= call <=
+    S0 exp(-qT) (path by path: the forward below, the asset above); decreasing and convex
+    in the strike (path by path).
     """
 
     strike = Param(100.0, low=0.0, doc="strike")
@@ -44,6 +134,30 @@ class EuropeanCall(Product):
             becomes=lambda p: PrepaidForward(maturity=p.maturity),
             note="strike 0: the call pays S(T) on every path, the prepaid forward",
         ),
+        own_closed_form(note="Black-Scholes call"),
+    )
+    relations = (
+        Identity(
+            "put_call_parity",
+            lambda p: [(1.0, p), (-1.0, _put(p)), (-1.0, ForwardContract(strike=p.strike, maturity=p.maturity))],
+            note="max(S-K, 0) - max(K-S, 0) = S - K on every path",
+        ),
+        Bound(
+            "below_prepaid_forward",
+            "<=",
+            lambda p, m: prepaid_forward(market(m)[0], p.maturity, market(m)[2]),
+            pathwise_leg=lambda p: PrepaidForward(maturity=p.maturity),
+            source="S0 exp(-qT) (the call never pays more than the asset)",
+        ),
+        Bound(
+            "above_forward",
+            ">=",
+            lambda p, m: ForwardContract(strike=p.strike, maturity=p.maturity).reference(m),
+            pathwise_leg=lambda p: ForwardContract(strike=p.strike, maturity=p.maturity),
+            source="S0 exp(-qT) - K exp(-rT) (the call pays at least S - K)",
+        ),
+        Monotone("strike", -1, to=lambda p: p.strike + 10.0, pathwise=True),
+        Convex("strike", step=10.0, pathwise=True),
     )
 
     def dates(self) -> np.ndarray:
@@ -63,11 +177,34 @@ class EuropeanCall(Product):
 class EuropeanPut(Product):
     """Pays max(K - S(T), 0) at T.
 
-    Limits: strike 0 -> worth nothing.
+    Limits: strike 0 -> pays nothing (a bond of face 0).
+    Relations: put <= K exp(-rT) (path by path: the bond paying K); increasing and convex
+    in the strike (path by path). Put-call parity is declared on the call.
     """
 
     strike = Param(100.0, low=0.0, doc="strike")
     maturity = Param(1.0, low=0.0, low_open=True, doc="expiry in years")
+
+    reductions = (
+        Reduction(
+            "zero_strike",
+            {"strike": 0.0},
+            becomes=lambda p: ZeroCouponBond(cash=0.0, maturity=p.maturity),
+            note="strike 0: max(-S(T), 0) = 0 on every path",
+        ),
+        own_closed_form(note="Black-Scholes put"),
+    )
+    relations = (
+        Bound(
+            "below_discounted_strike",
+            "<=",
+            lambda p, m: p.strike * math.exp(-m.short_rate * p.maturity),
+            pathwise_leg=lambda p: ZeroCouponBond(cash=p.strike, maturity=p.maturity),
+            source="K exp(-rT) (the put never pays more than K)",
+        ),
+        Monotone("strike", +1, to=lambda p: p.strike + 10.0, pathwise=True),
+        Convex("strike", step=10.0, pathwise=True),
+    )
 
     def dates(self) -> np.ndarray:
         return np.array([self.maturity])
@@ -81,3 +218,38 @@ class EuropeanPut(Product):
 
     def reference_source(self) -> str:
         return "Black-Scholes put"
+
+
+class Straddle(Product):
+    """Pays |S(T) - K| at T: a call and a put on the same strike.
+
+    Limits: strike 0 -> the prepaid forward. Relation: straddle = call + put (path by path).
+    """
+
+    strike = Param(100.0, low=0.0, doc="strike")
+    maturity = Param(1.0, low=0.0, low_open=True, doc="expiry in years")
+
+    reductions = (
+        Reduction(
+            "zero_strike",
+            {"strike": 0.0},
+            becomes=lambda p: PrepaidForward(maturity=p.maturity),
+            note="strike 0: |S(T)| = S(T) on every path",
+        ),
+        own_closed_form(note="Black-Scholes call + put"),
+    )
+    relations = (
+        Identity("call_plus_put", lambda p: [(1.0, p), (-1.0, _call(p)), (-1.0, _put(p))]),
+    )
+
+    def dates(self) -> np.ndarray:
+        return np.array([self.maturity])
+
+    def payoff(self, obs):
+        return np.abs(obs.s[:, -1] - self.strike)
+
+    def reference(self, model):
+        return _call(self).reference(model) + _put(self).reference(model)
+
+    def reference_source(self) -> str:
+        return "Black-Scholes call + put"
