@@ -351,3 +351,15 @@ def test_generic_bad_input():
         lattice_price_payoff(_log_minus_36, 36.0, 1.0, 0.06, 0.0, 0.2, steps=10)
     with pytest.raises(ParamError, match="up-probability"):
         lattice_price_payoff(lambda x: x, 36.0, 1.0, 2.0, 0.0, 0.05, steps=2)
+
+
+def test_bermudan_call_without_dividends_is_european_and_with_dividends_is_between():
+    # Merton (1973): no early exercise of a call without dividends, so any Bermudan call
+    # equals the European one; with a dividend yield it lies between European and American.
+    ex = np.arange(1, 13) / 12.0
+    berm = lattice_price(100.0, 95.0, 1.0, 0.05, 0.0, 0.3, kind="call", exercise=ex)
+    assert abs(berm - _bs(100.0, 95.0, 1.0, 0.05, 0.0, 0.3, True)) < 1e-4
+    eur = lattice_price(100.0, 95.0, 1.0, 0.02, 0.08, 0.3, kind="call", exercise="european")
+    berm_q = lattice_price(100.0, 95.0, 1.0, 0.02, 0.08, 0.3, kind="call", exercise=ex)
+    amer = lattice_price(100.0, 95.0, 1.0, 0.02, 0.08, 0.3, kind="call")
+    assert eur < berm_q < amer
