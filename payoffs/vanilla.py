@@ -12,10 +12,10 @@ import math
 
 import numpy as np
 
-from limitcase import Bound, Convex, Identity, Monotone, Param, Product, Reduction
+from limitcase import Bound, Convex, Monotone, Param, Product, Reduction
 from limitcase.references import black_scholes, prepaid_forward
 
-from ._common import bs_inputs, market, own_closed_form
+from ._common import ROUNDING_REASON, PathIdentity, bs_inputs, market, own_closed_form, rounding
 
 
 class PrepaidForward(Product):
@@ -53,9 +53,8 @@ class ZeroCouponBond(Product):
 
     reductions = (
         own_closed_form(
-            allowance=lambda p, m: 1e-12 * p.cash,
-            reason="floating-point rounding: the mean of a constant over blocks of paths is off "
-            "by ~1e-16 relative, and its standard error is rounding noise, not zero",
+            allowance=rounding(lambda p: p.cash),
+            reason=ROUNDING_REASON,
             note="a sure amount C at T is worth C exp(-rT)",
         ),
     )
@@ -137,7 +136,7 @@ class EuropeanCall(Product):
         own_closed_form(note="Black-Scholes call"),
     )
     relations = (
-        Identity(
+        PathIdentity(
             "put_call_parity",
             lambda p: [(1.0, p), (-1.0, _put(p)), (-1.0, ForwardContract(strike=p.strike, maturity=p.maturity))],
             note="max(S-K, 0) - max(K-S, 0) = S - K on every path",
@@ -239,7 +238,7 @@ class Straddle(Product):
         own_closed_form(note="Black-Scholes call + put"),
     )
     relations = (
-        Identity("call_plus_put", lambda p: [(1.0, p), (-1.0, _call(p)), (-1.0, _put(p))]),
+        PathIdentity("call_plus_put", lambda p: [(1.0, p), (-1.0, _call(p)), (-1.0, _put(p))]),
     )
 
     def dates(self) -> np.ndarray:
