@@ -94,3 +94,11 @@ class PathIdentity(Identity):
             bound = ROUNDING * sum(abs(w) for w in c.weights) * abs(self.scale(product, model))
             out.append(replace(c, allowance=bound, allowance_reason=ROUNDING_REASON))
         return out
+
+
+def period_starts(obs: Any) -> np.ndarray:
+    """The price at the start of each observation interval ``(t[j-1], t[j]]``: today's
+    spot for the first, then ``S(t[0]), ..., S(t[n-2])``; shape ``(paths, dates)`` like
+    ``obs.s`` (one asset). What period returns and Brownian bridges between dates need."""
+    first = np.full((obs.paths, 1), obs.s0, dtype=float)
+    return np.concatenate([first, obs.s[:, :-1]], axis=1)
