@@ -1,0 +1,153 @@
+"""Pictures for the dossier, drawn with matplotlib's Agg canvas (no display, no pyplot
+state) and returned as PNG bytes, so a page can embed them or write them beside itself.
+
+* :func:`sweep_png`: the Monte Carlo price at each point of a sweep toward a limit, with
+  its 95% confidence band, and the base case's trusted value as a horizontal line.
+* :func:`convergence_png`: standard error against paths on log-log axes, with the
+  ``n^{-1/2}`` line through the largest run, and the estimate with its band against paths.
+* :func:`steps_png`: the estimate against a model's number of time steps.
+* :func:`formula_png`: a LaTeX formula typeset by matplotlib's mathtext (offline).
+"""
+
+from __future__ import annotations
+
+import io
+import math
+from typing import TYPE_CHECKING
+
+from matplotlib import mathtext
+from matplotlib.backends.backend_agg import FigureCanvasAgg
+from matplotlib.figure import Figure
+from matplotlib.font_manager import FontProperties
+from matplotlib.ticker import NullFormatter
+
+if TYPE_CHECKING:  # pragma: no cover
+    from ..sweep import Convergence, StepSweep, Sweep
+
+__all__ = ["sweep_png", "convergence_png", "steps_png", "formula_png", "Z95"]
+
+Z95 = 1.959963984540054
+"""Two-sided 95% normal quantile: the bands drawn are value +/- Z95 * stderr."""
+
+_BLUE, _ORANGE, _GREY, _GREEN = "#1f5fa8", "#d9731a", "#666666", "#2e8b57"
+
+
+def _png(fig: Figure) -> bytes:
+    FigureCanvasAgg(fig)
+    buf = io.BytesIO()
+    fig.savefig(buf, format="png", dpi=100)
+    return buf.getvalue()
+
+
+def _path_axis(ax, n: list[int]) -> None:
+    ax.set_xscale("log")
+    ax.set_xticks(n)
+    ax.set_xticklabels([f"{k:,}" if k < 10**6 else f"{k:.1e}" for k in n], rotation=30, fontsize=8)
+    ax.xaxis.set_minor_formatter(NullFormatter())
+    ax.set_xlabel("paths")
+
+
+def _tick(v: object) -> str:
+    if isinstance(v, float):
+        if math.isinf(v):
+            return "∞" if v > 0 else "-∞"
+        return f"{v:g}"
+    return str(v)
+
+
+def sweep_png(sweep: "Sweep", title: str | None = None) -> bytes:
+    """The sweep of one reduction: estimates with 95% bands, the limit point, the base value."""
+    plan = sweep.plan
+    ests = sweep.estimates
+    n = len(ests)
+    fig = Figure(figsize=(7.6, 3.9))
+    ax = fig.add_subplot(1, 1, 1)
+    # finite points at 0..n-2, the limit set apart at n - 0.4
+    xs = [float(i) for i in range(n - 1)] + [n - 0.4]
+    ys = [e.value for e in ests]
+    half = [Z95 * e.stderr for e in ests]
+    if n > 1:
+        ax.fill_between(xs[:-1], [y - h for y, h in zip(ys[:-1], half[:-1])],
+                        [y + h for y, h in zip(ys[:-1], half[:-1])], color=_BLUE, alpha=0.15, lw=0)
+        ax.errorbar(xs[:-1], ys[:-1], yerr=half[:-1], fmt="o-", color=_BLUE, ms=4, lw=1.2, capsize=3,
+                    label="Monte Carlo price, 95% band")
+        ax.axvline(n - 1.2, color=_GREY, lw=0.8, ls=":")
+    ax.errorbar([xs[-1]], [ys[-1]], yerr=[half[-1]], fmt="s", color=_ORANGE, ms=6, capsize=4,
+                label="at the limit")
+    if sweep.target is not None:
+        ax.axhline(sweep.target, color=_GREEN, lw=1.4, ls="--",
+                   label=f"base case {sweep.target:.6g}")
+    labels = [_tick(v) for v in plan.values]
+    ax.set_xticks(xs)
+    ax.set_xticklabels(labels, rotation=0 if max(len(s) for s in labels) < 7 else 30)
+    ax.set_xlim(-0.5, xs[-1] + 0.5)
+    others = [k for k in plan.points[0] if k != plan.param] if plan.points else []
+    swept = [k for k in others if len({repr(p[k]) for p in plan.points}) > 1]
+    held = [f"{k}={_tick(plan.points[-1][k])}" for k in others if k not in swept]
+    extra = ([f"{', '.join(swept)} moved alongside"] if swept else []) + ([f"{', '.join(held)} held"] if held else [])
+    ax.set_xlabel(plan.param + (f"   ({'; '.join(extra)})" if extra else ""))
+    ax.set_ylabel("price")
+    ax.set_title(title or f"{plan.product} / {plan.case}", fontsize=11)
+    ax.grid(True, color="#dddddd", lw=0.6)
+    ax.legend(loc="best", fontsize=8, frameon=False)
+    fig.tight_layout()
+    return _png(fig)
+
+
+def convergence_png(conv: "Convergence") -> bytes:
+    """Standard error against paths (log-log) beside the estimate against paths."""
+    ests = conv.estimates
+    n = [e.paths for e in ests]
+    se = [e.stderr for e in ests]
+    fig = Figure(figsize=(8.4, 3.4))
+    ax1 = fig.add_subplot(1, 2, 1)
+    ax1.loglog(n, se, "o-", color=_BLUE, ms=4, label="standard error")
+    if se and se[-1] > 0:
+        ref = [se[-1] * math.sqrt(n[-1] / k) for k in n]
+        ax1.loglog(n, ref, "--", color=_GREY, lw=1, label=r"$\propto n^{-1/2}$")
+    slope = conv.slope()
+    ax1.set_title("standard error" + (f" (slope {slope:.2f})" if slope is not None else ""), fontsize=10)
+    _path_axis(ax1, n)
+    ax1.grid(True, which="both", color="#e4e4e4", lw=0.5)
+    ax1.legend(fontsize=8, frameon=False)
+    ax2 = fig.add_subplot(1, 2, 2)
+    v = [e.value for e in ests]
+    h = [Z95 * e.stderr for e in ests]
+    ax2.fill_between(n, [a - b for a, b in zip(v, h)], [a + b for a, b in zip(v, h)], color=_BLUE, alpha=0.15, lw=0)
+    ax2.plot(n, v, "o-", color=_BLUE, ms=4)
+    _path_axis(ax2, n)
+    ax2.set_title("estimate with 95% band", fontsize=10)
+    ax2.grid(True, which="both", color="#e4e4e4", lw=0.5)
+    fig.suptitle(conv.product.label(), fontsize=11)
+    fig.tight_layout()
+    return _png(fig)
+
+
+def steps_png(steps: "StepSweep") -> bytes:
+    """The estimate with its 95% band against the model's time-step parameter."""
+    x = list(steps.values)
+    v = [e.value for e in steps.estimates]
+    h = [Z95 * e.stderr for e in steps.estimates]
+    fig = Figure(figsize=(6.0, 3.4))
+    ax = fig.add_subplot(1, 1, 1)
+    ax.errorbar(x, v, yerr=h, fmt="o-", color=_BLUE, ms=4, capsize=3)
+    ax.set_xscale("log", base=2)
+    ax.set_xticks(x)
+    ax.set_xticklabels([str(k) for k in x])
+    ax.set_xlabel(steps.param)
+    ax.set_ylabel("price")
+    ax.set_title(f"{steps.product.label()}: time step", fontsize=10)
+    ax.grid(True, color="#e4e4e4", lw=0.5)
+    fig.tight_layout()
+    return _png(fig)
+
+
+def formula_png(latex: str, fontsize: float = 15.0) -> bytes | None:
+    """``latex`` typeset by matplotlib's mathtext as a tight PNG; ``None`` when mathtext
+    cannot typeset it (the caller then shows sympy's text rendering)."""
+    buf = io.BytesIO()
+    try:
+        mathtext.math_to_image(f"${latex}$", buf, prop=FontProperties(size=fontsize), dpi=110, format="png")
+    except (ValueError, RuntimeError):
+        return None
+    return buf.getvalue()
