@@ -1,0 +1,5 @@
+"""The team's ordinary tests, collected beside the plugin's items."""
+
+
+def test_ordinary():
+    assert 1 + 1 == 2
