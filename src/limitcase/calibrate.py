@@ -143,9 +143,11 @@ def heston_log_cf(u: Any, maturity: Any, v0: Any, kappa: Any, theta: Any, vol_of
             - 2\ln\frac{1-ge^{-dT}}{1-g}\Big]
             + \frac{v_0(a-d)}{\sigma^2}\frac{1-e^{-dT}}{1-ge^{-dT}},
 
-    evaluated with :math:`a - d = -\sigma^2\beta/(a+d)` (no cancellation) and
-    :math:`\ln((1-ge^{-dT})/(1-g)) = \operatorname{log1p}(g(1-e^{-dT})/(1-g))`. Needs
-    :math:`\sigma > 0` (the fit's bounds keep :math:`\sigma \ge 0.01`).
+    evaluated with :math:`a - d = -\sigma^2\beta/(a+d)` and
+    :math:`\ln((1-ge^{-dT})/(1-g)) = \ln(1+z)`, :math:`z = g(1-e^{-dT})/(1-g)`, whose
+    division by :math:`\sigma^2` is carried out analytically (:math:`z/\sigma^2` and
+    :math:`\ln(1+z)/z` by its series for small :math:`|z|`), so no digits are lost as the
+    vol of vol gets small. Needs :math:`\sigma > 0` (the fit keeps :math:`\sigma \ge 0.01`).
     """
     u = np.asarray(u, dtype=complex)
     iu = 1j * u
@@ -156,8 +158,15 @@ def heston_log_cf(u: Any, maturity: Any, v0: Any, kappa: Any, theta: Any, vol_of
     amd_s2 = -beta / apd  # (a - d) / sigma^2
     g = vol_of_vol * vol_of_vol * amd_s2 / apd
     em = -np.expm1(-d * maturity)  # 1 - e^{-dT}
-    log_ratio = np.log1p(g * em / (1.0 - g))
-    c = kappa * theta * (amd_s2 * maturity - 2.0 * log_ratio / (vol_of_vol * vol_of_vol))
+    z_s2 = amd_s2 / apd * em / (1.0 - g)  # z / sigma^2, z = g (1 - e^{-dT}) / (1 - g)
+    z = vol_of_vol * vol_of_vol * z_s2
+    # log(1 + z) / z: numpy's complex log1p is log(1 + z), inaccurate for small |z|
+    small = np.abs(z) < 1e-4
+    zs = np.where(small, z, 0.0)
+    with np.errstate(all="ignore"):
+        direct = np.log(1.0 + np.where(small, 1.0, z)) / np.where(small, 1.0, z)
+    ratio = np.where(small, 1.0 - zs * (0.5 - zs * (1.0 / 3.0 - zs * 0.25)), direct)
+    c = kappa * theta * (amd_s2 * maturity - 2.0 * ratio * z_s2)
     return c + v0 * amd_s2 * em / (1.0 - g * (1.0 - em))
 
 
