@@ -826,7 +826,8 @@ def reprice(
     select
         Reprice only quotes whose ``"<model>/<label>"`` contains one of these texts (the
         calibration still uses all quotes; the streams of an expiry do not depend on which
-        of its quotes are priced, so a selected quote gets the same number).
+        of its quotes are priced, so a selected quote sees the same paths and gets the same
+        number, up to the rounding of the sums).
     mc_model
         Maps each expiry's calibrated model to the model actually simulated (default: the
         same). A hook to show that a wrong simulation is caught.
