@@ -11,6 +11,7 @@ from __future__ import annotations
 import importlib
 import pkgutil
 import sys
+from typing import Any
 
 import click
 
@@ -25,6 +26,8 @@ from .cli_support import (
     select_checks,
     write_outputs,
 )
+from .sampling import METHODS
+from .suite import DEFAULT_MAX_PATHS
 
 @click.group(context_settings={"help_option_names": ["-h", "--help"]})
 @click.version_option(__version__, prog_name="limitcase")
@@ -41,17 +44,32 @@ def main() -> None:
               help="Run only the cases whose 'product/case' contains TEXT (repeatable).")
 @click.option("--regression-paths", type=click.IntRange(min=1000), default=None,
               help="Pilot paths for Longstaff-Schwartz policies (default 65536).")
+@click.option("--method", type=click.Choice(METHODS), default="auto", show_default=True,
+              help="Variance reduction: plain, antithetic pairs, control variates, Sobol points with a "
+                   "Brownian bridge, or combinations; auto picks control variates with Sobol points where "
+                   "they apply and antithetic pairs otherwise.")
+@click.option("--precision", metavar="X", default=None,
+              help="Add paths until every check's detectable bias (90% power) is at most X: a price "
+                   "difference (0.01) or, with a trailing %, relative to the reference (0.5%).")
+@click.option("--max-paths", type=click.IntRange(min=100), default=DEFAULT_MAX_PATHS, show_default=True,
+              help="Path budget of each check under --precision.")
+@click.option("--workers", type=click.IntRange(min=1), default=None,
+              help="Worker processes (default: all cores). The numbers do not depend on it.")
 @handle_errors
 def check(paths_in: tuple[str, ...], paths: int, seed: int, alpha: float, json_path: str | None,
-          junit_path: str | None, debug: bool, selects: tuple[str, ...], regression_paths: int | None) -> None:
+          junit_path: str | None, debug: bool, selects: tuple[str, ...], regression_paths: int | None,
+          method: str, precision: str | None, max_paths: int, workers: int | None) -> None:
     """Run every declared reduction and relation of the products in PATH (files or
     folders of .py files; default: the shipped catalogue)."""
+    import time
+
     from .engine import DEFAULT_REGRESSION_PATHS
     from .loader import load_products
     from .reduce import checks_for
     from .report import render_summary, render_table
-    from .suite import run_checks
+    from .suite import default_workers, parse_precision, run_checks
 
+    target = parse_precision(precision) if precision is not None else None
     products = load_products(paths_in)
     if not products:
         raise InputFailure(f"no Product classes found in {', '.join(paths_in) or 'the catalogue'}")
@@ -59,19 +77,66 @@ def check(paths_in: tuple[str, ...], paths: int, seed: int, alpha: float, json_p
     if not checks:
         raise InputFailure("no checks to run: the products declare no reductions or relations"
                            + (" matching --select" if selects else ""))
+    workers = workers or default_workers()
     progress = Progress("checking", len(checks))
+    start = time.monotonic()
     try:
         result = run_checks(checks, paths=paths, seed=seed, alpha=alpha,
                             regression_paths=regression_paths or DEFAULT_REGRESSION_PATHS,
-                            progress=progress)
+                            progress=progress, method=method, precision=target, max_paths=max_paths,
+                            workers=workers)
     finally:
         progress.close()
+    result.extra["workers"] = workers
+    result.extra["wall_seconds"] = round(time.monotonic() - start, 3)
     click.echo(render_table(result.outcomes))
     click.echo("")
+    click.echo(_detection_table(result))
+    click.echo("")
     reproduce = f"limitcase check {' '.join(paths_in)}".rstrip()
+    if method != "auto":
+        reproduce += f" --method {method}"
+    if target is not None:
+        reproduce += f" --precision {precision} --max-paths {max_paths}"
     click.echo(render_summary(result, reproduce=reproduce))
+    click.echo(f"{result.extra['wall_seconds']:.1f} s on {workers} worker{'' if workers == 1 else 's'}")
     write_outputs(result, "check", json_path, junit_path, reproduce)
     sys.exit(EXIT_OK if result.ok else EXIT_FAIL)
+
+
+def _detection_table(result: Any) -> str:
+    """Per check: method, paths, the smallest bias detected with 90% power (and relative to the
+    reference), and under --precision whether the target was reached."""
+    tested = [o for o in result.outcomes if o.detectable_bias is not None]
+    m = len(tested)
+    precise = "precision" in result.extra
+    head = ["product", "case", "method", "paths", "detectable bias", "rel."] + (["precision"] if precise else [])
+    rows = [head]
+    for o in result.outcomes:
+        if o.detectable_bias is None:
+            continue
+        rel = f"{100 * o.detectable_relative:.2g}%" if o.detectable_relative else "-"
+        row = [o.product, o.case, o.method, str(o.paths), f"{o.detectable_bias:.3g}", rel]
+        if precise:
+            status = {"reached": "reached", "budget": "BUDGET SPENT", "allowance": "below allowance",
+                      "identity broken": "identity broken"}.get(o.precision_status, o.precision_status)
+            row.append(f"{status} ({o.precision:.3g})" if o.precision is not None else status)
+        rows.append(row)
+    widths = [max(len(r[i]) for r in rows) for i in range(len(head))]
+    lines = [f"smallest bias each check detects with 90% power (Holm over {m} checks at alpha "
+             f"{result.alpha:g}; declared allowances included)"]
+    for k, r in enumerate(rows):
+        lines.append("  ".join(c.ljust(w) if i < 3 else c.rjust(w) for i, (c, w) in enumerate(zip(r, widths))).rstrip())
+        if k == 0:
+            lines.append("  ".join("-" * w for w in widths))
+    if precise:
+        short = [o for o in result.outcomes if o.precision_status == "budget"]
+        lines.append(f"precision {result.extra['precision']}: {m - len(short)} of {m} checks reached it"
+                     + (f"; {len(short)} spent the budget of {result.extra['max_paths']} paths" if short else ""))
+    notes = sorted({n for o in result.outcomes for n in (o.message or "").split("; ")
+                    if n.startswith(("Sobol points not used", "no underlying control")) or "control_variates skipped" in n})
+    lines.extend(f"note: {n}" for n in notes)
+    return "\n".join(lines)
 
 
 def _register_commands() -> None:

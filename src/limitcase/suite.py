@@ -3,26 +3,71 @@
 The suite is the only place where checks meet the engine. Each check draws from its own
 streams (keyed by product and case name), so a failing check reproduces on its own with
 the same seed, whatever else was run with it.
+
+Parallel runs. A run is cut into tasks: the set-up of each check (Longstaff-Schwartz
+policy, control-variate pilot) and ranges of its blocks. Tasks go to a pool of forked
+worker processes (``workers > 1``), which inherit the loaded products, so products defined
+in the user's own files work there as they do here. Every block is summarised by whichever
+process computes it and the summaries are combined in block order in this process: the
+numbers are the same for any number of workers. Where ``fork`` is not available the run
+falls back to one process, with a :class:`RuntimeWarning`.
+
+Precision runs. With ``precision`` set, paths are added in rounds until every check's
+detectable bias (:func:`limitcase.verdict.detectable_bias` at the run's alpha and number of
+checks) is at most the target, or the check's ``max_paths`` budget is spent. Blocks are
+added in order, so the result is the result of a fixed run with the final path count; the
+next round's size depends only on the standard errors so far, never on the differences.
+
+Sequential-testing caveat. Choosing the sample size from the data and then testing as if it
+had been fixed is exact when the stopping rule is independent of the sample mean. The
+standard error of normal data is independent of its mean (Cochran's theorem); for skewed
+cash flows (calls, barriers) a large mean and a large sample variance go together, so
+checks that happened to draw a high mean stop a little later. The effect on the test is of
+second order (the stopping rule moves the sample size, not the statistic) and is measured in
+``tests/engine``: the false-alarm rate of precision runs over many seeds stays within the
+binomial interval of the nominal rate. A stopping rule reading the difference itself
+("stop when the check is clearly passing") would break the test, and is not offered.
 """
 
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, field
-from typing import Callable, Sequence
+import multiprocessing
+import os
+import warnings
+from dataclasses import dataclass, field, replace
+from typing import Any, Callable, Sequence
 
 import numpy as np
 
-from .engine import DEFAULT_REGRESSION_PATHS, Joint, case_key, coerce_seed, evaluate
-from .errors import LimitcaseError
+from .engine import BLOCK, DEFAULT_REGRESSION_PATHS, BlockResult, Case, Joint, Setup, case_key, coerce_seed
+from .errors import LimitcaseError, ParamError
 from .reduce import Check
-from .verdict import Outcome, finalise, p_value
+from .sampling import METHODS, parse_method
+from .verdict import Outcome, detectable_bias, finalise, p_value
 
-__all__ = ["RunResult", "run_check", "run_checks", "DEFAULT_PATHS", "DEFAULT_SEED", "DEFAULT_ALPHA"]
+__all__ = [
+    "RunResult",
+    "run_check",
+    "run_checks",
+    "Precision",
+    "parse_precision",
+    "default_workers",
+    "DEFAULT_PATHS",
+    "DEFAULT_SEED",
+    "DEFAULT_ALPHA",
+    "DEFAULT_MAX_PATHS",
+]
 
 DEFAULT_PATHS = 100_000
 DEFAULT_SEED = 20261201
 DEFAULT_ALPHA = 0.01
+DEFAULT_MAX_PATHS = 4_000_000
+MAX_GROWTH = 8.0
+"""A precision round multiplies a check's paths by at most this factor."""
+SAFETY = 1.05
+"""A precision round aims 5% beyond the paths the standard error projects, so one round
+usually suffices."""
 
 
 @dataclass
@@ -48,41 +93,75 @@ class RunResult:
         return all(o.verdict == "pass" for o in self.outcomes)
 
 
-def run_check(
-    check: Check,
-    *,
-    paths: int,
-    seed: int,
-    regression_paths: int = DEFAULT_REGRESSION_PATHS,
-    on_batch: Callable[[int], None] | None = None,
-) -> Outcome:
-    """Price one check and return its outcome before the run-wide correction."""
-    base = dict(product=check.product, case=check.case, kind=check.kind, paths=paths, seed=seed, note=check.note)
-    if check.error is not None:
-        return Outcome(verdict="error", message=check.error, **base)
-    assert check.model is not None
+@dataclass(frozen=True)
+class Precision:
+    """A target for the detectable bias: ``value`` in price units, or, when ``relative``,
+    as a fraction of each check's price scale (``|reference|``, or for a target of 0 the
+    largest price among the legs it weighs)."""
+
+    value: float
+    relative: bool = False
+
+    def target(self, scale: float | None) -> float:
+        if not self.relative:
+            return self.value
+        return self.value * (scale or 0.0)
+
+    def __str__(self) -> str:
+        return f"{100 * self.value:g}%" if self.relative else f"{self.value:g}"
+
+
+def parse_precision(value: "str | float | Precision") -> Precision:
+    """``0.01`` (price units) or ``"0.5%"`` (relative) as a :class:`Precision`.
+
+    Raises :class:`ParamError` for anything that is not a positive number, naming the value.
+    """
+    if isinstance(value, Precision):
+        return value
+    text = str(value).strip()
+    relative = text.endswith("%")
     try:
-        joint = evaluate(
-            check.legs,
-            check.model,
-            paths=paths,
-            seed=seed,
-            key=case_key(check.product, check.case),
-            rules=check.rules,
-            regression_paths=regression_paths,
-            on_batch=on_batch,
+        number = float(text[:-1] if relative else text)
+    except ValueError:
+        number = math.nan
+    if not math.isfinite(number) or number <= 0:
+        raise ParamError(
+            f"precision={value!r} is not a positive number; give a bias in price units "
+            "(e.g. 0.01) or relative to the reference with a trailing % (e.g. 0.5%)"
         )
-    except LimitcaseError as exc:
-        return Outcome(verdict="error", message=str(exc), legs=tuple(p.label() for p in check.legs), **base)
-    return decide(check, joint, seed)
+    return Precision(number / 100.0 if relative else number, relative)
+
+
+def default_workers() -> int:
+    """The cores this process may use."""
+    try:
+        return max(1, len(os.sched_getaffinity(0)))
+    except (AttributeError, OSError):  # pragma: no cover - not Linux
+        return max(1, os.cpu_count() or 1)
+
+
+# ----------------------------------------------------------------------------------------
+# decisions
+
+
+FLOAT_FLOOR = 1e-10
+"""Standard errors below ``FLOAT_FLOOR`` times the check's price scale are raised to it.
+A control variate equal to the statistic on every path (an arithmetic Asian with one
+fixing against the geometric one) leaves only rounding noise, ~1e-19, and the comparison
+of two closed forms would then fail on their last digits: no estimate is taken to be more
+precise than one part in 1e10 of the prices it compares."""
 
 
 def decide(check: Check, joint: Joint, seed: int) -> Outcome:
     """The outcome of a priced check: path rules first, then the statistical test."""
     est = joint.estimate(check.weights)
     diff = est.value - check.target
+    messages = list(joint.notes)
+    scale = _scale(check, joint)
+    if scale and 0.0 < est.stderr < FLOAT_FLOOR * scale:
+        est = type(est)(est.value, FLOAT_FLOOR * scale, est.paths, est.dof)
+        messages.append(f"standard error raised to the floating-point floor {FLOAT_FLOOR:g} x {scale:.6g}")
     pathwise_ok: bool | None = None
-    messages = []
     if check.rules:
         pathwise_ok = all(r.violations == 0 for r in joint.rules)
         for r in joint.rules:
@@ -91,7 +170,8 @@ def decide(check: Check, joint: Joint, seed: int) -> Outcome:
                     f"path-by-path identity broken on {r.violations} of {joint.paths} paths "
                     f"(worst residual {r.worst:.6g} at path {r.worst_path})"
                 )
-    p = 0.0 if pathwise_ok is False else p_value(diff, est.stderr, check.sense, check.allowance)
+    dof = est.dof if math.isfinite(est.dof) else None
+    p = 0.0 if pathwise_ok is False else p_value(diff, est.stderr, check.sense, check.allowance, dof)
     z = diff / est.stderr if est.stderr > 0 else (0.0 if diff == 0 else math.copysign(math.inf, diff))
     if check.allowance:
         messages.append(f"allowance {check.allowance:.4g}: {check.allowance_reason}")
@@ -117,7 +197,359 @@ def decide(check: Check, joint: Joint, seed: int) -> Outcome:
         note=check.note,
         legs=tuple(p_.label() for p_ in check.legs),
         pathwise_ok=pathwise_ok,
+        dof=dof,
+        scale=scale,
+        controls=joint.controls,
     )
+
+
+def _scale(check: Check, joint: Joint) -> float | None:
+    if check.target:
+        return abs(check.target)
+    prices = [abs(float(m)) for w, m in zip(check.weights, joint.mean) if w]
+    top = max(prices, default=0.0)
+    return top if top > 0 else None
+
+
+# ----------------------------------------------------------------------------------------
+# the run: tasks, executors, rounds
+
+_RUN: dict[int, "_Run"] = {}  # runs by id, inherited by forked workers
+
+
+@dataclass
+class _Item:
+    index: int
+    check: Check
+    case: Case | None = None
+    setup: Setup | None = None
+    acc: Any = None
+    paths: int = 0  # rounded paths asked for so far
+    error: str | None = None
+    status: str = ""
+    done: bool = False
+
+
+class _Run:
+    def __init__(self, checks: Sequence[Check], seed: int, regression_paths: int, method: str) -> None:
+        self.items = [_Item(i, c) for i, c in enumerate(checks)]
+        self.seed = seed
+        self.regression_paths = regression_paths
+        self.method = method
+
+
+def _case_for(check: Check, seed: int, method: str, regression_paths: int) -> Case:
+    assert check.model is not None
+    spec = parse_method(method)
+    controls = None
+    if spec is None or spec.control:
+        from .engine import gather_controls
+
+        legs = [leg for w, leg in zip(check.weights, check.legs) if w]
+        controls, notes = gather_controls(legs, check.model)
+    else:
+        notes = []
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")  # substitutions are recorded as notes on the check
+        case = Case(check.legs, check.model, seed=seed, key=case_key(check.product, check.case),
+                    rules=check.rules, method=method, controls=controls, regression_paths=regression_paths,
+                    warn=False)
+    if notes:
+        case.notes = tuple(notes) + case.notes
+    return case
+
+
+def _task_setup(args: tuple[int, int]) -> tuple[int, Setup | None, str | None]:
+    run_id, i = args
+    item = _RUN[run_id].items[i]
+    assert item.case is not None
+    try:
+        return i, item.case.setup(), None
+    except LimitcaseError as exc:
+        return i, None, str(exc)
+
+
+def _task_blocks(args: tuple[int, int, Setup, int, int, int]) -> tuple[int, list[BlockResult] | None, str | None]:
+    run_id, i, setup, first, last, paths = args
+    item = _RUN[run_id].items[i]
+    assert item.case is not None
+    try:
+        return i, item.case.blocks(setup, first, last, paths), None
+    except LimitcaseError as exc:
+        return i, None, str(exc)
+
+
+class _Inline:
+    workers = 1
+
+    def map(self, fn: Callable, tasks: list) -> list:
+        return [fn(t) for t in tasks]
+
+    def close(self) -> None:
+        pass
+
+
+class _Forked:
+    def __init__(self, workers: int) -> None:
+        ctx = multiprocessing.get_context("fork")
+        self.workers = workers
+        self.pool = ctx.Pool(workers)
+
+    def map(self, fn: Callable, tasks: list) -> list:
+        return self.pool.map(fn, tasks, chunksize=1)
+
+    def close(self) -> None:
+        self.pool.terminate()
+        self.pool.join()
+
+
+def _executor(workers: int, tasks_hint: int) -> _Inline | _Forked:
+    if workers <= 1 or tasks_hint <= 1:
+        return _Inline()
+    if multiprocessing.current_process().daemon:  # inside a pool worker: no pools of pools
+        return _Inline()
+    if "fork" not in multiprocessing.get_all_start_methods():
+        warnings.warn(
+            f"workers={workers}: this platform cannot fork worker processes (which inherit the loaded "
+            "products); running in one process. The numbers are the same.",
+            RuntimeWarning,
+            stacklevel=3,
+        )
+        return _Inline()
+    return _Forked(workers)
+
+
+def _split(first: int, last: int, per_task: int) -> list[tuple[int, int]]:
+    return [(b, min(last, b + per_task)) for b in range(first, last, per_task)]
+
+
+def _execute(
+    checks: Sequence[Check],
+    *,
+    paths: int,
+    seed: int,
+    alpha: float,
+    regression_paths: int,
+    method: str,
+    precision: Precision | None,
+    max_paths: int,
+    workers: int,
+    progress: Callable[[int, int], None] | None,
+    family: int | None = None,
+) -> list[Outcome]:
+    """Outcomes (before Holm) of ``checks``, computed in rounds on an executor.
+
+    ``family``: the number of checks Holm will correct over (default: those that run)."""
+    run = _Run(checks, seed, regression_paths, method)
+    total = len(run.items)
+    finished = 0
+
+    def finish(item: _Item) -> None:
+        nonlocal finished
+        item.done = True
+        finished += 1
+        if progress is not None:
+            progress(finished, total)
+
+    for item in run.items:
+        if item.check.error is not None:
+            item.error = item.check.error
+            finish(item)
+            continue
+        try:
+            item.case = _case_for(item.check, seed, method, regression_paths)
+        except LimitcaseError as exc:
+            item.error = str(exc)
+            finish(item)
+            continue
+        first = int(paths)
+        if precision is not None:
+            first = max(first, 2)
+            first = -(-first // BLOCK) * BLOCK  # whole blocks, so later rounds extend them
+        item.paths = item.case.round_paths(min(first, max(max_paths, 2)) if precision is not None else first)
+        item.acc = item.case.accumulator()
+
+    live = [it for it in run.items if not it.done]
+    run_id = id(run)
+    _RUN[run_id] = run
+    ex = _executor(workers, len(live))
+    try:
+        for i, setup, err in ex.map(_task_setup, [(run_id, it.index) for it in live]):
+            item = run.items[i]
+            if err is not None:
+                item.error = err
+                finish(item)
+            else:
+                item.setup = setup
+        while True:
+            active = [it for it in run.items if not it.done]
+            if not active:
+                break
+            todo = [(it, it.acc.next_block, Case.blocks_for(it.paths)) for it in active]
+            blocks = sum(b - a for _, a, b in todo)
+            per_task = max(1, min(64, -(-blocks // (4 * ex.workers)))) if ex.workers > 1 else 1 << 30
+            tasks = []
+            for it, a, b in todo:
+                for lo, hi in _split(a, b, per_task):
+                    tasks.append((run_id, it.index, it.setup, lo, hi, it.paths))
+            tasks.sort(key=lambda t: -(t[4] - t[3]) * len(run.items[t[1]].case.grid))  # longest first
+            results: dict[int, list[BlockResult]] = {}
+            for i, res, err in ex.map(_task_blocks, tasks):
+                item = run.items[i]
+                if err is not None:
+                    item.error = item.error or err
+                elif item.error is None:
+                    results.setdefault(i, []).extend(res or [])
+            for it in active:
+                if it.error is not None:
+                    finish(it)
+                    continue
+                for r in sorted(results.get(it.index, []), key=lambda r: r.block):
+                    it.acc.add(r)
+            active = [it for it in active if not it.done]
+            if precision is None:
+                for it in active:
+                    finish(it)
+                continue
+            m = family or sum(1 for it in run.items if it.error is None)
+            for it in active:
+                _next_round(it, precision, alpha, m, max_paths)
+                if it.done:
+                    it.done = False
+                    finish(it)
+    finally:
+        ex.close()
+        _RUN.pop(run_id, None)
+
+    outcomes = []
+    for it in run.items:
+        outcomes.append(_outcome(it, seed, precision, alpha))
+    return outcomes
+
+
+def _next_round(it: _Item, precision: Precision, alpha: float, m: int, max_paths: int) -> None:
+    """Decide from the standard error alone whether ``it`` needs more paths, and how many."""
+    assert it.case is not None and it.setup is not None
+    joint = it.acc.joint(it.setup)
+    check = it.check
+    if check.rules and any(r.violations for r in joint.rules):
+        it.status, it.done = "identity broken", True
+        return
+    est = joint.estimate(check.weights)
+    dof = est.dof if math.isfinite(est.dof) else None
+    target = precision.target(_scale(check, joint))
+    bias = detectable_bias(est.stderr, check.sense, alpha, m, allowance=check.allowance, dof=dof)
+    if bias <= target:
+        it.status, it.done = "reached", True
+        return
+    if check.allowance >= target:
+        it.status, it.done = "allowance", True
+        return
+    have = it.acc.paths
+    if have >= max_paths:
+        it.status, it.done = "budget", True
+        return
+    stat = bias - check.allowance
+    want = have * ((stat / (target - check.allowance)) ** 2) * SAFETY
+    want = min(want, have * MAX_GROWTH, max_paths)
+    n = int(-(-math.ceil(want) // BLOCK) * BLOCK)
+    n = max(n, have + BLOCK)
+    n = min(n, max(max_paths, have))
+    n = it.case.round_paths(n)
+    if n <= have:
+        it.status, it.done = "budget", True
+        return
+    it.paths = n
+
+
+def _outcome(it: _Item, seed: int, precision: Precision | None, alpha: float) -> Outcome:
+    check = it.check
+    base = dict(product=check.product, case=check.case, kind=check.kind, paths=it.acc.paths if it.acc else 0,
+                seed=seed, note=check.note)
+    if it.error is not None:
+        legs = tuple(p.label() for p in check.legs) if it.case is not None else ()
+        method = it.case.method if it.case is not None else "plain"
+        return Outcome(verdict="error", message=it.error, legs=legs, method=method, **base)
+    assert it.setup is not None
+    joint = it.acc.joint(it.setup)
+    out = decide(check, joint, seed)
+    if precision is not None:
+        target = precision.target(out.scale)
+        status = it.status or "reached"
+        message = out.message
+        if status == "budget":
+            message = (message + "; " if message else "") + (
+                f"precision {precision} not reached within the budget of {joint.paths} paths"
+            )
+        elif status == "allowance":
+            message = (message + "; " if message else "") + (
+                f"precision {precision} cannot be reached: the declared allowance {check.allowance:.4g} "
+                "alone is larger"
+            )
+        out = replace(out, precision=target, precision_status=status, message=message)
+    return out
+
+
+# ----------------------------------------------------------------------------------------
+# public entry points
+
+
+def _validate(paths: int, seed: int, alpha: float, method: str, max_paths: int, workers: int) -> None:
+    coerce_seed(seed)
+    if not isinstance(paths, (int, np.integer)) or isinstance(paths, bool) or paths < 2:
+        raise ParamError(f"paths={paths!r} must be an integer >= 2")
+    if not 0.0 < alpha < 1.0:
+        raise ParamError(f"alpha={alpha!r} must lie in (0, 1); it is the run's family-wise false-alarm rate")
+    if method not in METHODS:
+        raise ParamError(f"method={method!r} is not a sampling method; use one of {', '.join(METHODS)}")
+    if not isinstance(max_paths, (int, np.integer)) or max_paths < 2:
+        raise ParamError(f"max_paths={max_paths!r} must be an integer >= 2 (the path budget of each check)")
+    if not isinstance(workers, (int, np.integer)) or workers < 1:
+        raise ParamError(f"workers={workers!r} must be an integer >= 1")
+
+
+def run_check(
+    check: Check,
+    *,
+    paths: int,
+    seed: int,
+    regression_paths: int = DEFAULT_REGRESSION_PATHS,
+    on_batch: Callable[[int], None] | None = None,
+    method: str = "plain",
+    precision: "str | float | Precision | None" = None,
+    max_paths: int = DEFAULT_MAX_PATHS,
+    alpha: float = DEFAULT_ALPHA,
+    family: int = 1,
+) -> Outcome:
+    """Price one check in this process and return its outcome before the run-wide correction.
+
+    With ``precision``, the detectable bias is computed at ``alpha`` over a run of
+    ``family`` checks (the Holm family the check will be part of).
+    """
+    _validate(paths, seed, alpha, method, max_paths, 1)
+    prec = parse_precision(precision) if precision is not None else None
+    if prec is None and check.error is None:
+        base = dict(product=check.product, case=check.case, kind=check.kind, paths=paths, seed=seed,
+                    note=check.note)
+        try:
+            case = _case_for(check, seed, method, regression_paths)
+            setup = case.setup()
+            n = case.round_paths(paths)
+            acc = case.accumulator()
+            buf = case._buffer(min(BLOCK, n))
+            for b in range(Case.blocks_for(n)):
+                for r in case.blocks(setup, b, b + 1, n, buf):
+                    acc.add(r)
+                if on_batch is not None:
+                    on_batch(acc.paths)
+            joint = acc.joint(setup)
+        except LimitcaseError as exc:
+            return Outcome(verdict="error", message=str(exc), legs=tuple(p.label() for p in check.legs), **base)
+        return decide(check, joint, seed)
+    out = _execute([check], paths=paths, seed=seed, alpha=alpha, regression_paths=regression_paths,
+                   method=method, precision=prec, max_paths=max_paths, workers=1, progress=None,
+                   family=max(1, int(family)))
+    return out[0]
 
 
 def run_checks(
@@ -128,15 +560,41 @@ def run_checks(
     alpha: float = DEFAULT_ALPHA,
     regression_paths: int = DEFAULT_REGRESSION_PATHS,
     progress: Callable[[int, int], None] | None = None,
+    method: str = "plain",
+    precision: "str | float | Precision | None" = None,
+    max_paths: int = DEFAULT_MAX_PATHS,
+    workers: int = 1,
 ) -> RunResult:
     """Run every check and apply Holm's correction over the run at level ``alpha``.
 
-    ``progress(done, total)`` is called after each check.
+    Parameters
+    ----------
+    checks
+        From :func:`limitcase.reduce.checks_for`.
+    paths
+        Paths per check (the first round's, with ``precision``).
+    seed, alpha
+        The run's seed and family-wise false-alarm rate.
+    regression_paths
+        Longstaff-Schwartz pilot paths.
+    progress
+        ``progress(done, total)`` after each check finishes.
+    method
+        Sampling method, one of :data:`limitcase.sampling.METHODS` (``"auto"``: control
+        variates with Sobol points or antithetic pairs).
+    precision
+        A detectable-bias target (``0.01`` or ``"0.5%"``, see :func:`parse_precision`):
+        paths are added until each check reaches it or spends ``max_paths``.
+    max_paths
+        The path budget of each check in a precision run.
+    workers
+        Processes sharing the work (1: this one). The numbers do not depend on it.
     """
-    coerce_seed(seed)  # validates
-    outcomes = []
-    for i, check in enumerate(checks):
-        outcomes.append(run_check(check, paths=paths, seed=seed, regression_paths=regression_paths))
-        if progress is not None:
-            progress(i + 1, len(checks))
-    return RunResult(finalise(outcomes, alpha), paths=paths, seed=seed, alpha=alpha)
+    _validate(paths, seed, alpha, method, max_paths, workers)
+    prec = parse_precision(precision) if precision is not None else None
+    outcomes = _execute(checks, paths=paths, seed=seed, alpha=alpha, regression_paths=regression_paths,
+                        method=method, precision=prec, max_paths=max_paths, workers=workers, progress=progress)
+    extra: dict = {"method": method}
+    if prec is not None:
+        extra.update(precision=str(prec), max_paths=int(max_paths))
+    return RunResult(finalise(outcomes, alpha), paths=paths, seed=seed, alpha=alpha, extra=extra)

@@ -3,9 +3,14 @@
 A check compares a Monte Carlo statistic ``d`` (standard error ``se``) with its target.
 With a declared bias allowance ``a``:
 
-* ``==``: p = 2 (1 - Phi(max(|d - target| - a, 0) / se))
-* ``>=``: p = Phi((d - target + a) / se)   (small when d is clearly below target)
-* ``<=``: p = 1 - Phi((d - target - a) / se)
+* ``==``: p = 2 (1 - F(max(|d - target| - a, 0) / se))
+* ``>=``: p = F((d - target + a) / se)   (small when d is clearly below target)
+* ``<=``: p = 1 - F((d - target - a) / se)
+
+``F`` is the standard normal distribution function for a large-sample standard error, and
+Student's t with the estimate's degrees of freedom when the standard error rests on few
+independent replicates (``SCRAMBLES - 1`` for randomised quasi-Monte Carlo): with 31 degrees
+of freedom the normal would understate a 1e-4 tail about threefold.
 
 Holm (1979), "A simple sequentially rejective multiple test procedure", Scand. J.
 Statistics 6(2), 65-70: sort the m p-values, ``p_adj(i) = max_{j<=i} min(1, (m-j+1) p(j))``;
@@ -13,18 +18,31 @@ a check fails when ``p_adj < alpha``. The family-wise false-alarm rate of the ru
 most ``alpha`` whatever the dependence between checks. A path-by-path identity that breaks
 is a failure outright (p = 0): no amount of noise excuses it.
 
-The smallest bias a check could have detected with 90% power is reported beside it:
-``(z_{1-alpha/(2m)} + z_{0.9}) se`` for a two-sided check (``alpha/m`` for a one-sided one), the
-Bonferroni level being the strictest Holm may apply.
+Detectable bias. Beside each check stands the smallest true bias ``b`` (statistic's mean
+minus target) that the run detects with probability ``POWER`` (90%):
+
+    b = a + (q_{1-alpha/(2m)} + q_{POWER}) se    two-sided (``==``),
+    b = a + (q_{1-alpha/m} + q_{POWER}) se       one-sided (``>=``, ``<=``; a violation of size b),
+
+``q`` the quantiles of ``F``. Derivation: the check rejects when ``|d| - a > q se``; with
+``d ~ N(b, se^2)`` and ``b > a`` that happens with probability at least
+``Phi((b - a)/se - q)`` (the far tail only adds), which equals ``POWER`` at the ``b`` above.
+The level ``alpha/m`` is Bonferroni's, the strictest Holm applies (to the smallest
+p-value), so the power is at least 90% for a single biased check among correct ones. The
+relative figure divides by ``|reference|`` (none for a target of 0). Cohen (1988),
+*Statistical Power Analysis for the Behavioral Sciences*, 2nd ed., chapter 2, for the
+normal approximation to the power of a z-test; with Student's t the same formula with t
+quantiles approximates the non-central t power (common practice).
 """
 
 from __future__ import annotations
 
 import math
 from dataclasses import dataclass, replace
-from typing import Sequence
+from typing import Any, Sequence
 
 from scipy.stats import norm
+from scipy.stats import t as student_t
 
 __all__ = ["Outcome", "p_value", "holm", "detectable_bias", "finalise", "POWER"]
 
@@ -59,18 +77,38 @@ class Outcome:
     note: str = ""
     legs: tuple[str, ...] = ()
     pathwise_ok: bool | None = None
+    dof: float | None = None  # degrees of freedom of the standard error (None: large sample)
+    scale: float | None = None  # |reference|, or the largest weighted leg price for a target of 0
+    precision: float | None = None  # the detectable bias asked for by --precision, in price units
+    precision_status: str = ""  # "reached", "budget", "allowance", "identity broken" (precision runs)
+    controls: tuple[str, ...] = ()  # control variates used
 
     def to_dict(self) -> dict:
         d = {k: getattr(self, k) for k in self.__dataclass_fields__}
         d["legs"] = list(self.legs)
+        d["controls"] = list(self.controls)
         for k, v in d.items():
             if isinstance(v, float) and not math.isfinite(v):
                 d[k] = None if math.isnan(v) else (1e308 if v > 0 else -1e308)
         return d
 
 
-def p_value(diff: float, se: float, sense: str, allowance: float = 0.0) -> float:
-    """p-value of the difference ``diff`` (statistic minus target) under ``sense``."""
+def _dist(dof: float | None) -> Any:
+    if dof is None or not math.isfinite(dof) or dof > 1e7:
+        return norm
+    if dof < 1:
+        raise ValueError(f"dof={dof!r} must be >= 1 (or None/inf for a large-sample standard error)")
+    return student_t(dof)
+
+
+def p_value(diff: float, se: float, sense: str, allowance: float = 0.0, dof: float | None = None) -> float:
+    """p-value of the difference ``diff`` (statistic minus target) under ``sense``.
+
+    ``allowance`` widens the null hypothesis by a declared bias; ``dof`` are the degrees of
+    freedom of ``se`` (Student's t; ``None`` or ``inf``: the normal).
+    """
+    if sense not in ("==", ">=", "<="):
+        raise ValueError(f"sense={sense!r} must be '==', '>=' or '<='")
     if not math.isfinite(diff):
         return 0.0
     tiny = 1e-12 * (1.0 + abs(diff))
@@ -78,18 +116,16 @@ def p_value(diff: float, se: float, sense: str, allowance: float = 0.0) -> float
         excess = max(abs(diff) - allowance, 0.0)
         if se <= 0.0:
             return 1.0 if excess <= tiny else 0.0
-        return float(2.0 * norm.sf(excess / se))
+        return float(min(1.0, 2.0 * _dist(dof).sf(excess / se)))
     if sense == ">=":
         shifted = diff + allowance
         if se <= 0.0:
             return 1.0 if shifted >= -tiny else 0.0
-        return float(norm.cdf(shifted / se))
-    if sense == "<=":
-        shifted = diff - allowance
-        if se <= 0.0:
-            return 1.0 if shifted <= tiny else 0.0
-        return float(norm.sf(shifted / se))
-    raise ValueError(f"sense={sense!r} must be '==', '>=' or '<='")
+        return float(_dist(dof).cdf(shifted / se))
+    shifted = diff - allowance
+    if se <= 0.0:
+        return 1.0 if shifted <= tiny else 0.0
+    return float(_dist(dof).sf(shifted / se))
 
 
 def holm(pvalues: Sequence[float]) -> list[float]:
@@ -104,11 +140,26 @@ def holm(pvalues: Sequence[float]) -> list[float]:
     return adjusted
 
 
-def detectable_bias(se: float, sense: str, alpha: float, m: int, power: float = POWER) -> float:
-    """Smallest true bias detected with probability ``power`` at the strictest Holm level."""
-    m = max(m, 1)
+def detectable_bias(
+    se: float,
+    sense: str,
+    alpha: float,
+    m: int,
+    power: float = POWER,
+    *,
+    allowance: float = 0.0,
+    dof: float | None = None,
+) -> float:
+    """Smallest true bias detected with probability ``power`` at the strictest Holm level.
+
+    ``allowance + (q_{1 - alpha/(k m)} + q_{power}) * se`` with ``k = 2`` for a two-sided
+    check and ``k = 1`` otherwise, ``q`` normal quantiles (Student's t with ``dof``
+    degrees of freedom when given); see the module docstring for the derivation.
+    """
+    m = max(int(m), 1)
     level = alpha / m / (2.0 if sense == "==" else 1.0)
-    return float((norm.isf(level) + norm.isf(1.0 - power)) * se)
+    dist = _dist(dof)
+    return float(allowance + (dist.isf(level) + dist.isf(1.0 - power)) * se)
 
 
 def finalise(outcomes: Sequence[Outcome], alpha: float) -> list[Outcome]:
@@ -120,7 +171,7 @@ def finalise(outcomes: Sequence[Outcome], alpha: float) -> list[Outcome]:
     for i, padj in zip(tested, adjusted):
         o = out[i]
         se = o.stderr or 0.0
-        bias = detectable_bias(se, o.sense, alpha, m)
+        bias = detectable_bias(se, o.sense, alpha, m, allowance=o.allowance, dof=o.dof)
         rel = bias / abs(o.reference) if o.reference not in (None, 0.0) else None
         failed = (o.pathwise_ok is False) or padj < alpha
         message = o.message

@@ -1,0 +1,512 @@
+"""Where the normals come from, and the estimator that goes with each source.
+
+The engine simulates paths in blocks of ``BLOCK`` paths (see :mod:`limitcase.engine`); a
+*sampler* fills the block's normals ``z`` (shape ``(paths, dates, normals_per_step)``) and
+says how the block's per-path present values become an estimate with a standard error.
+The model never knows which sampler fed it.
+
+Methods (``--method`` on ``check``)
+-----------------------------------
+``plain``
+    Independent pseudo-random normals from the block's own stream; the standard error is
+    the sample standard deviation over paths divided by ``sqrt(paths)``.
+``antithetic``
+    Each block holds pairs ``(z, -z)``: the first half of the block draws ``z``, the second
+    half is its mirror image. Paths of a pair are dependent, so the standard error is
+    computed over *pair means* (``paths / 2`` independent replicates), never over single
+    paths. Glasserman (2004), *Monte Carlo Methods in Financial Engineering*, Section 4.2.
+``sobol``
+    Randomised quasi-Monte Carlo: scrambled Sobol points (:class:`scipy.stats.qmc.Sobol`,
+    Owen-type linear matrix scrambling with a digital shift) mapped to normals by the
+    inverse normal distribution function and to paths by a Brownian bridge, so the first
+    coordinates of every point decide the coarse shape of the path (Caflisch, Morokoff and
+    Owen 1997; Glasserman 2004, Sections 3.1 and 5.5). ``SCRAMBLES`` independent scrambles,
+    each seeded from the run's ``SeedSequence``, give independent, unbiased estimates; the
+    standard error is the standard deviation of the scramble means over
+    ``sqrt(SCRAMBLES)``, with ``SCRAMBLES - 1`` degrees of freedom (the verdict then uses
+    Student's t, not the normal). Applies when the model draws few normals per step
+    (``normals_per_step() <= SOBOL_MAX_NORMALS_PER_STEP``); otherwise the engine falls back
+    to pseudo-random normals with a :class:`SamplingWarning`.
+``control``
+    Control variates on top of any of the above: see :mod:`limitcase.engine` (products
+    whose exact price is known are priced on the same paths; the coefficient comes from
+    pilot paths of their own, so the estimate stays unbiased).
+``auto``
+    Control variates, with Sobol points where they apply and antithetic pairs otherwise.
+
+Any randomness a model draws itself (jump counts, from the block's ``Generator``) and the
+per-block uniforms products may read stay pseudo-random under every method: only the
+normals change, which keeps every estimator above unbiased.
+
+Layout of a Sobol block. With ``R = SCRAMBLES`` and ``C = BLOCK // R``, block ``b`` holds
+points ``b*C ... b*C + C - 1`` of each scramble, scramble ``r`` in rows ``r*C ... r*C + C - 1``.
+Adding blocks in order extends every scramble's sequence, so more blocks never change the
+earlier ones, and a block's numbers depend only on the seed, the dimension and ``b``.
+The scrambles depend on the run's seed and the dimension (dates x normals per step), not
+on the case: cases of equal dimension share scrambles (their estimates may then be
+dependent, which Holm's correction allows), and a check still reproduces on its own.
+"""
+
+from __future__ import annotations
+
+import math
+import warnings
+from collections import deque
+from dataclasses import dataclass
+from typing import Any, Callable, Sequence
+
+import numpy as np
+from scipy.special import ndtri
+from scipy.stats import qmc
+
+from .errors import ParamError
+
+__all__ = [
+    "METHODS",
+    "SCRAMBLES",
+    "SOBOL_MAX_NORMALS_PER_STEP",
+    "SOBOL_MAX_DIMENSION",
+    "SamplingWarning",
+    "MethodSpec",
+    "parse_method",
+    "resolve_method",
+    "sobol_obstacle",
+    "Sampler",
+    "Plain",
+    "Antithetic",
+    "SobolBridge",
+    "BrownianBridge",
+    "Moments",
+]
+
+METHODS = ("auto", "plain", "antithetic", "control", "sobol", "control+antithetic", "control+sobol")
+"""Names accepted by ``--method`` and by ``method=`` of :func:`limitcase.engine.evaluate`."""
+
+SCRAMBLES = 32
+"""Independent scrambles of a Sobol run: the standard error has ``SCRAMBLES - 1`` degrees of freedom."""
+
+SOBOL_MAX_NORMALS_PER_STEP = 4
+"""Sobol points are used only for models drawing at most this many normals per date."""
+
+SOBOL_MAX_DIMENSION = 21201
+"""The largest dimension :class:`scipy.stats.qmc.Sobol` supports (its direction numbers)."""
+
+SOBOL_BITS = 30
+_SOBOL_TAG = 0x50B0  # first word of the scrambles' spawn keys (4 words long: never a block stream's 3)
+_HALF_CELL = 0.5 ** (SOBOL_BITS + 1)
+
+
+class SamplingWarning(UserWarning):
+    """A requested sampling method does not apply to a case; another one was used."""
+
+
+# ----------------------------------------------------------------------------------------
+# method names
+
+
+@dataclass(frozen=True, slots=True)
+class MethodSpec:
+    """A resolved method: the source of normals (``base``) and whether control variates apply."""
+
+    base: str = "plain"
+    control: bool = False
+
+    @property
+    def name(self) -> str:
+        if self.base == "plain":
+            return "control" if self.control else "plain"
+        return f"control+{self.base}" if self.control else self.base
+
+
+def parse_method(name: str | MethodSpec) -> MethodSpec | None:
+    """The :class:`MethodSpec` of a method name; ``None`` for ``"auto"``.
+
+    Raises :class:`ParamError` for an unknown name, listing the known ones.
+    """
+    if isinstance(name, MethodSpec):
+        return name
+    if not isinstance(name, str) or name not in METHODS:
+        raise ParamError(f"method={name!r} is not a sampling method; use one of {', '.join(METHODS)}")
+    if name == "auto":
+        return None
+    parts = set(name.split("+"))
+    control = "control" in parts
+    parts.discard("control")
+    base = parts.pop() if parts else "plain"
+    return MethodSpec(base=base, control=control)
+
+
+def sobol_obstacle(normals_per_step: int, dates: int) -> str | None:
+    """Why Sobol points do not apply to a model and grid, or ``None`` when they do."""
+    if normals_per_step > SOBOL_MAX_NORMALS_PER_STEP:
+        return (
+            f"the model draws {normals_per_step} normals per date (Sobol points are used up to "
+            f"{SOBOL_MAX_NORMALS_PER_STEP})"
+        )
+    if normals_per_step * dates > SOBOL_MAX_DIMENSION:
+        return (
+            f"dimension {normals_per_step * dates} (dates x normals per date) exceeds the "
+            f"{SOBOL_MAX_DIMENSION} of scipy's Sobol generator"
+        )
+    return None
+
+
+def resolve_method(
+    name: str | MethodSpec, normals_per_step: int, dates: int, *, warn: bool = True
+) -> tuple[MethodSpec, tuple[str, ...]]:
+    """The method actually used for a case, and notes on any substitution.
+
+    ``auto`` becomes control variates with Sobol points where they apply, antithetic pairs
+    otherwise (no warning: that is its job). An explicit ``sobol`` that does not apply falls
+    back to plain pseudo-random normals with a :class:`SamplingWarning` (when ``warn``).
+    """
+    spec = parse_method(name)
+    obstacle = sobol_obstacle(normals_per_step, dates)
+    if spec is None:
+        return MethodSpec("sobol" if obstacle is None else "antithetic", True), ()
+    if spec.base == "sobol" and obstacle is not None:
+        note = f"Sobol points not used: {obstacle}; fell back to pseudo-random normals"
+        if warn:
+            warnings.warn(note, SamplingWarning, stacklevel=3)
+        return MethodSpec("plain", spec.control), (note,)
+    return spec, ()
+
+
+# ----------------------------------------------------------------------------------------
+# accumulated statistics
+
+
+@dataclass(frozen=True)
+class Moments:
+    """What an accumulator yields: paths, the mean of each column, ``cov`` scaled so that
+    ``cov / paths`` is the covariance of the mean as an estimator (for independent paths,
+    the per-path sample covariance), and the degrees of freedom of that covariance."""
+
+    paths: int
+    mean: np.ndarray
+    cov: np.ndarray
+    dof: float
+
+    @property
+    def cov_mean(self) -> np.ndarray:
+        return self.cov / self.paths
+
+
+def moment_summary(u: np.ndarray, paths: int) -> tuple[int, int, np.ndarray, np.ndarray]:
+    """``(paths, units, mean, co-moment matrix)`` of the replicate rows ``u`` of one block."""
+    nb = u.shape[0]
+    mb = u.mean(axis=0)
+    d = u - mb
+    return paths, nb, mb, np.einsum("ni,nj->ij", d, d)
+
+
+class MomentAccumulator:
+    """Running mean and co-moment matrix over independent replicates (paths, or pair means),
+    combined block by block by the pairwise update of Chan, Golub and LeVeque (1979),
+    "Updating formulae and a pairwise algorithm for computing sample variances": the
+    result depends only on the order of the blocks."""
+
+    def __init__(self) -> None:
+        self.paths = 0
+        self.n = 0
+        self.mean: np.ndarray | None = None
+        self.m2: np.ndarray | None = None
+
+    def add(self, summary: tuple[int, int, np.ndarray, np.ndarray]) -> None:
+        paths, nb, mb, m2b = summary
+        self.paths += paths
+        if nb == 0:
+            return
+        if self.n == 0 or self.mean is None or self.m2 is None:
+            self.n, self.mean, self.m2 = nb, mb, m2b
+            return
+        n = self.n + nb
+        delta = mb - self.mean
+        self.mean = self.mean + delta * (nb / n)
+        self.m2 = self.m2 + m2b + np.outer(delta, delta) * (self.n * nb / n)
+        self.n = n
+
+    def result(self) -> Moments:
+        if self.mean is None or self.m2 is None:
+            raise ValueError("no blocks accumulated")
+        if self.n > 1:
+            cov = self.m2 / (self.n - 1)
+            if self.paths != self.n:  # replicates are means of several paths
+                cov = cov * (self.paths / self.n)
+        else:
+            cov = np.full_like(self.m2, np.inf)
+        return Moments(self.paths, self.mean, cov, float(self.n - 1))
+
+
+class ScrambleAccumulator:
+    """Per-scramble sums; the estimate is the mean of the scramble means and its covariance
+    the sample covariance of the scramble means over the number of scrambles."""
+
+    def __init__(self, scrambles: int) -> None:
+        self.r = scrambles
+        self.sums: np.ndarray | None = None
+        self.counts = np.zeros(scrambles, dtype=np.int64)
+
+    def add(self, summary: tuple[np.ndarray, np.ndarray]) -> None:
+        counts, sums = summary
+        self.counts += counts
+        self.sums = sums.copy() if self.sums is None else self.sums + sums
+
+    def result(self) -> Moments:
+        if self.sums is None:
+            raise ValueError("no blocks accumulated")
+        means = self.sums / self.counts[:, None]
+        mean = means.mean(axis=0)
+        d = means - mean
+        paths = int(self.counts.sum())
+        cov = (d.T @ d) * (paths / ((self.r - 1) * self.r))
+        return Moments(paths, mean, cov, float(self.r - 1))
+
+
+# ----------------------------------------------------------------------------------------
+# samplers
+
+
+class Sampler:
+    """Base of the sources of normals. ``bind`` ties one to a case (grid, normals per step,
+    seed); the bound sampler fills blocks, summarises their present values and makes the
+    accumulator that turns the summaries into :class:`Moments`.
+
+    How to subclass: set ``method``, fill ``draw(g, z, block)`` (``z`` is the block's
+    ``(paths, dates, normals_per_step)`` array; ``g`` the block's generator), and override
+    ``round_paths``, ``summarise`` and ``accumulator`` when paths are not independent.
+    """
+
+    method: str = "plain"
+
+    def bind(self, times: np.ndarray, normals_per_step: int, seed: np.random.SeedSequence) -> "Sampler":
+        return self
+
+    def round_paths(self, paths: int) -> int:
+        """The path count actually simulated for a request of ``paths``."""
+        return paths
+
+    def draw(self, g: np.random.Generator, z: np.ndarray, block: int) -> None:
+        raise NotImplementedError
+
+    def summarise(self, x: np.ndarray, block: int) -> Any:
+        return moment_summary(x, x.shape[0])
+
+    def accumulator(self) -> Any:
+        return MomentAccumulator()
+
+
+class Plain(Sampler):
+    """Independent pseudo-random normals from each block's own stream."""
+
+    method = "plain"
+
+    def draw(self, g: np.random.Generator, z: np.ndarray, block: int) -> None:
+        g.standard_normal(out=z)
+
+
+class _Custom(Sampler):
+    """A plain function ``draw(g, z, block)`` used as a sampler (independent paths)."""
+
+    def __init__(self, fn: Callable[[np.random.Generator, np.ndarray, int], None]) -> None:
+        self.fn = fn
+        self.method = str(getattr(fn, "method", "custom"))
+
+    def draw(self, g: np.random.Generator, z: np.ndarray, block: int) -> None:
+        self.fn(g, z, block)
+
+
+def as_sampler(obj: Any) -> Sampler:
+    """A :class:`Sampler` from a sampler, a method base name, or a ``draw`` function."""
+    if isinstance(obj, Sampler):
+        return obj
+    if isinstance(obj, str):
+        return {"plain": Plain, "antithetic": Antithetic, "sobol": SobolBridge}[obj]()
+    if callable(obj):
+        return _Custom(obj)
+    raise ParamError(f"sampler={obj!r} is neither a Sampler nor a function draw(g, z, block)")
+
+
+class Antithetic(Sampler):
+    """Pairs ``(z, -z)``: rows ``0..h-1`` of a block of ``2h`` paths draw ``z`` from the
+    block's stream, rows ``h..2h-1`` are ``-z``. The replicates are the ``h`` pair means.
+
+    With ``f`` the discounted payoff, ``Var[(f(z) + f(-z))/2] = Var[f] (1 + rho) / 2``,
+    ``rho = Corr[f(z), f(-z)]`` (Glasserman 2004, Section 4.2): a gain for monotone payoffs,
+    never worse than half the paths for any payoff, and half the normals to draw.
+    """
+
+    method = "antithetic"
+
+    def round_paths(self, paths: int) -> int:
+        return paths + (paths % 2)
+
+    def draw(self, g: np.random.Generator, z: np.ndarray, block: int) -> None:
+        h = z.shape[0] // 2
+        g.standard_normal(out=z[:h])
+        np.negative(z[:h], out=z[h:])
+
+    def summarise(self, x: np.ndarray, block: int) -> Any:
+        h = x.shape[0] // 2
+        u = x[:h] + x[h:]
+        u *= 0.5
+        return moment_summary(u, x.shape[0])
+
+
+class BrownianBridge:
+    r"""Brownian motion at ``times`` from standard normals taken coarse to fine.
+
+    The first normal sets the end point, :math:`W(t_m) = \sqrt{t_m}\,Z_1`; each later one
+    fills the middle index ``i`` of an interval whose ends ``l < i < r`` are known:
+
+    .. math::
+
+        W(t_i) = \frac{(t_r - t_i) W(t_l) + (t_i - t_l) W(t_r)}{t_r - t_l}
+                 + \sqrt{\frac{(t_i - t_l)(t_r - t_i)}{t_r - t_l}}\, Z,
+
+    with :math:`W(0) = 0` (Glasserman 2004, Section 3.1). The increments
+    :math:`(W(t_j) - W(t_{j-1})) / \sqrt{t_j - t_{j-1}}` are then independent standard
+    normals, whatever the normals' source: it is a change of variables, exact in law.
+    """
+
+    def __init__(self, times: Sequence[float]) -> None:
+        t = np.asarray(times, dtype=float)
+        m = t.size
+        if m == 0 or t[0] <= 0 or np.any(np.diff(t) <= 0):
+            raise ParamError(f"BrownianBridge needs increasing times > 0; got {t[:6]!r}")
+        steps: list[tuple[int, int, int, float, float, float]] = [(m - 1, -1, -1, 0.0, 0.0, math.sqrt(t[-1]))]
+        queue = deque([(-1, m - 1)])
+        while queue:
+            lo, hi = queue.popleft()
+            if hi - lo < 2:
+                continue
+            i = (lo + hi) // 2
+            tl = 0.0 if lo < 0 else float(t[lo])
+            tr, ti = float(t[hi]), float(t[i])
+            span = tr - tl
+            steps.append((i, lo, hi, (tr - ti) / span, (ti - tl) / span, math.sqrt((ti - tl) * (tr - ti) / span)))
+            queue.append((lo, i))
+            queue.append((i, hi))
+        self.times = t
+        self.steps = steps
+        self.inv_sqrt_dt = 1.0 / np.sqrt(np.diff(t, prepend=0.0))
+
+    def increments(self, normals: np.ndarray, out: np.ndarray) -> None:
+        """Normalised increments ``out`` (paths, dates, k) from ``normals`` (paths, dates, k)
+        whose axis 1 is in bridge order (position 0 sets the end point)."""
+        n, m, k = normals.shape
+        w = np.empty((m, n, k))
+        for p, (i, lo, hi, a, b, s) in enumerate(self.steps):
+            wi = w[i]
+            np.multiply(normals[:, p, :], s, out=wi)
+            if hi >= 0:
+                wi += b * w[hi]
+            if lo >= 0:
+                wi += a * w[lo]
+        inc = np.diff(w, axis=0, prepend=0.0)
+        inc *= self.inv_sqrt_dt[:, None, None]
+        out[...] = inc.transpose(1, 0, 2)
+
+
+_ENGINES: dict[tuple, list] = {}
+_ENGINE_CACHE_LIMIT = 4096
+
+
+def _sobol_engine(seed: np.random.SeedSequence, dim: int, r: int, position: int) -> Any:
+    """Scramble ``r`` of dimension ``dim``, positioned at point ``position`` (cached per
+    process; scipy's generator is sequential, so a jump back resets and fast-forwards)."""
+    tag = (seed.entropy, tuple(seed.spawn_key), dim, r)
+    entry = _ENGINES.get(tag)
+    if entry is None:
+        if len(_ENGINES) >= _ENGINE_CACHE_LIMIT:
+            _ENGINES.clear()
+        ss = np.random.SeedSequence(seed.entropy, spawn_key=tuple(seed.spawn_key) + (_SOBOL_TAG, 0, dim, r))
+        eng = qmc.Sobol(dim, scramble=True, bits=SOBOL_BITS, rng=np.random.Generator(np.random.PCG64(ss)))
+        entry = _ENGINES[tag] = [eng, 0]
+    eng, pos = entry
+    if pos != position:
+        if pos > position:
+            eng.reset()
+            pos = 0
+        if position > pos:
+            eng.fast_forward(position - pos)
+        entry[1] = position
+    return entry
+
+
+class SobolBridge(Sampler):
+    """Scrambled Sobol points through the inverse normal and a Brownian bridge, in
+    ``scrambles`` independent randomisations (see the module docstring for the layout).
+
+    Coordinate ``p * k + f`` of a point (``k`` normals per date) drives bridge position
+    ``p`` of factor ``f``: the most important coordinates (the end point, then the middle,
+    ...) come first, where Sobol points are most uniform.
+    """
+
+    method = "sobol"
+
+    def __init__(self, scrambles: int = SCRAMBLES, block: int | None = None) -> None:
+        if scrambles < 2:
+            raise ParamError(f"scrambles={scrambles!r} must be >= 2 (the standard error needs two)")
+        self.scrambles = int(scrambles)
+        self.block = block
+        self.seed: np.random.SeedSequence | None = None
+        self.bridge: BrownianBridge | None = None
+        self.k = 1
+
+    def bind(self, times: np.ndarray, normals_per_step: int, seed: np.random.SeedSequence) -> "SobolBridge":
+        from .engine import BLOCK
+
+        block = self.block or BLOCK
+        if block % self.scrambles:
+            raise ParamError(f"scrambles={self.scrambles!r} must divide the block size {block}")
+        bound = SobolBridge(self.scrambles, block)
+        bound.seed = seed
+        bound.bridge = BrownianBridge(times)
+        bound.k = int(normals_per_step)
+        obstacle = sobol_obstacle(bound.k, len(times))
+        if obstacle is not None:
+            raise ParamError(f"Sobol points do not apply: {obstacle}")
+        return bound
+
+    @property
+    def dimension(self) -> int:
+        assert self.bridge is not None
+        return len(self.bridge.times) * self.k
+
+    def round_paths(self, paths: int) -> int:
+        r = self.scrambles
+        return -(-paths // r) * r
+
+    def draw(self, g: np.random.Generator, z: np.ndarray, block: int) -> None:
+        assert self.seed is not None and self.bridge is not None and self.block is not None
+        n, m, k = z.shape
+        r_count = self.scrambles
+        c = n // r_count
+        chunk = self.block // r_count
+        dim = m * k
+        u = np.empty((n, dim))
+        for r in range(r_count):
+            entry = _sobol_engine(self.seed, dim, r, block * chunk)
+            u[r * c : (r + 1) * c] = entry[0].random(c)
+            entry[1] += c
+        u += _HALF_CELL  # cell midpoints: strictly inside (0, 1), so the inverse stays finite
+        normals = ndtri(u).reshape(n, m, k)
+        self.bridge.increments(normals, z)
+
+    def summarise(self, x: np.ndarray, block: int) -> Any:
+        r_count = self.scrambles
+        c = x.shape[0] // r_count
+        sums = x.reshape(r_count, c, x.shape[1]).sum(axis=1)
+        return np.full(r_count, c, dtype=np.int64), sums
+
+    def accumulator(self) -> Any:
+        return ScrambleAccumulator(self.scrambles)
+
+
+def make_sampler(spec: MethodSpec, times: np.ndarray, normals_per_step: int, seed: np.random.SeedSequence,
+                 override: Any = None) -> Sampler:
+    """The bound sampler of a case: ``override`` (a sampler or draw function) if given, else
+    the one named by ``spec.base``."""
+    base = as_sampler(override) if override is not None else as_sampler(spec.base)
+    return base.bind(np.asarray(times, dtype=float), normals_per_step, seed)
