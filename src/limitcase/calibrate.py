@@ -44,7 +44,6 @@ from typing import Any, Callable, Sequence
 
 import numpy as np
 from scipy.optimize import least_squares
-from scipy.special import ndtr
 from scipy.stats import norm, qmc
 
 from .engine import case_key, evaluate
@@ -862,7 +861,8 @@ def reprice(
     if not chosen:
         raise InputError(f"no quote matches --select {' '.join(select)!r}; labels look like "
                          f"'{name}/{qs.quotes[0].label}'")
-    groups = [(t, [i for i in idx if i in set(chosen)]) for t, idx in qs.by_expiry()]
+    chosen_set = set(chosen)
+    groups = [(t, [i for i in idx if i in chosen_set]) for t, idx in qs.by_expiry()]
     groups = [(t, idx) for t, idx in groups if idx]
     rows: dict[int, RepriceRow] = {}
     outcomes: dict[int, Outcome] = {}

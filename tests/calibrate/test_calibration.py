@@ -5,7 +5,6 @@ known noise), Black-Scholes one volatility per expiry."""
 from __future__ import annotations
 
 import math
-from pathlib import Path
 
 import numpy as np
 import pytest

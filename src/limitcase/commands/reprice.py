@@ -66,8 +66,10 @@ def render_calibration(cal: Calibration) -> str:
         flag = "  (at a bound)" if n in cal.at_bound else ""
         lines.append(f"  {n.ljust(width)} = {v:.6g}" + (f" +/- {se:.2g}" if se is not None else "") + flag)
     inside, of = cal.within_spread
+    spread = (f"formula price within bid-ask for {inside} of {of} quotes" if of
+              else "no bid-ask given")
     lines.append(f"  fit: RMSE {cal.rmse_price:.4g} in price, {cal.rmse_vol:.3g} vol points "
-                 f"(largest {cal.max_vol_error:.3g}); formula price within bid-ask for {inside} of {of} quotes")
+                 f"(largest {cal.max_vol_error:.3g}); {spread}")
     if cal.feller is not None and cal.feller_sides is not None:
         a, b = cal.feller_sides
         lines.append(f"  Feller 2 kappa theta >= vol_of_vol^2: {a:.4g} {'>=' if cal.feller else '<'} {b:.4g} "
