@@ -48,6 +48,7 @@ same code path the checks use.
 
 from __future__ import annotations
 
+import inspect
 import math
 import time
 from dataclasses import dataclass
@@ -274,10 +275,7 @@ def _multi_reference(model: Model, option: AuditOption) -> tuple[float, str]:
 
 
 def _heston_reference(model: Model, option: AuditOption) -> tuple[float, str]:
-    try:
-        from .references import heston_price  # type: ignore[attr-defined]
-    except ImportError:  # not yet re-exported by the package
-        from .references.heston import heston_price
+    from .references import heston_price
 
     _call_only(model, option)
     m: Any = model
@@ -287,10 +285,7 @@ def _heston_reference(model: Model, option: AuditOption) -> tuple[float, str]:
 
 
 def _merton_reference(model: Model, option: AuditOption) -> tuple[float, str]:
-    try:
-        from .references import merton_jump_price  # type: ignore[attr-defined]
-    except ImportError:
-        from .references.merton import merton_jump_price
+    from .references import merton_jump_price
 
     _call_only(model, option)
     m: Any = model
@@ -478,6 +473,21 @@ def _check_paths(paths: int, least: int, audit: str) -> None:
         raise ParamError(f"paths={paths!r} is too few for the {audit} audit; it needs at least {least}")
 
 
+def _evaluate(products: Sequence[Product], model: Model, **kwargs: Any) -> Joint:
+    """:func:`limitcase.engine.evaluate` on plain pseudo-random paths, always.
+
+    The audits test the simulation itself: a control variate on the discounted underlying
+    would make the martingale test vacuous (it would pin the mean to the forward), and
+    antithetic or quasi-random points change what the paths and seeds audits measure.
+    """
+    if "method" in _EVALUATE_PARAMS:
+        kwargs["method"] = "plain"
+    return evaluate(products, model, **kwargs)
+
+
+_EVALUATE_PARAMS = frozenset(inspect.signature(evaluate).parameters)
+
+
 # ----------------------------------------------------------------------------------------
 # martingale
 
@@ -529,7 +539,7 @@ def audit_martingale(
     key = case_key(_name(model), "martingale")
 
     def measure(m: Model, n: int) -> tuple[Joint, np.ndarray, np.ndarray, np.ndarray]:
-        joint = evaluate(legs, m, paths=n, seed=seed, key=key)
+        joint = _evaluate(legs, m, paths=n, seed=seed, key=key)
         se = np.sqrt(np.clip(np.diag(joint.cov), 0.0, None) / joint.paths)
         diff = joint.mean - target
         return joint, diff, se, np.array([p_value(d, s, "==") for d, s in zip(diff, se)])
@@ -612,7 +622,7 @@ def audit_paths(
     disc = math.exp(-model.short_rate * option.maturity)
     se_g, var4, var2 = [], [], []
     for g, n in enumerate(sizes):
-        joint = evaluate(legs, model, paths=int(n), seed=seed, key=case_key(_name(model), "paths", str(g)))
+        joint = _evaluate(legs, model, paths=int(n), seed=seed, key=case_key(_name(model), "paths", str(g)))
         mu = joint.mean[0]
         vy, cwy, vw = joint.cov[0, 0], joint.cov[0, 1], joint.cov[1, 1]
         # Y = disc f, W = disc f^2 = Y^2 / disc: Var Y^2 = disc^2 Var W, Cov(Y^2, Y) = disc Cov(W, Y)
@@ -677,7 +687,7 @@ def audit_seeds(
     children = coerce_seed(seed).spawn(k) if not isinstance(seed, np.random.SeedSequence) else seed.spawn(k)
     leg = option.probe(model.n_assets)
     key = case_key(_name(model), "seeds")
-    est = [evaluate([leg], model, paths=each, seed=child, key=key).estimate([1.0]) for child in children]
+    est = [_evaluate([leg], model, paths=each, seed=child, key=key).estimate([1.0]) for child in children]
     v = np.array([e.value for e in est])
     s = np.array([e.stderr for e in est])
     if np.any(s <= 0):
@@ -747,7 +757,7 @@ def audit_steps(
     stacked = _Levels(model, lv, per, common=not exact)
     legs = [option.probe(stacked.n_assets, offset=i * a, name=f"{option.describe()} dt={option.maturity / option.dates_count / f:g}")
             for i, f in enumerate(factors)]
-    joint = evaluate(legs, stacked, paths=paths, seed=seed, key=case_key(_name(model), "steps"))
+    joint = _evaluate(legs, stacked, paths=paths, seed=seed, key=case_key(_name(model), "steps"))
     prices = joint.mean
     dts = [option.maturity / option.dates_count / f for f in factors]
     table = ", ".join(f"{p:.5g} at dt={h:.4g}" for p, h in zip(prices, dts))
@@ -881,7 +891,7 @@ def audit_degenerations(
 def _priced_against(model: Model, case: str, option: AuditOption, ref: float, source: str,
                     paths: int, seed: int, note: str) -> Outcome:
     leg = option.probe(model.n_assets)
-    joint = evaluate([leg], model, paths=paths, seed=seed, key=case_key(_name(model), case))
+    joint = _evaluate([leg], model, paths=paths, seed=seed, key=case_key(_name(model), case))
     est = joint.estimate([1.0])
     diff = est.value - ref
     return _outcome(

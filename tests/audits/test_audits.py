@@ -205,8 +205,8 @@ def test_paths_audit_catches_a_standard_error_that_falls_like_one_over_n(monkeyp
     the fitted slope is -1, far outside its interval around -1/2."""
     honest = engine.Joint.estimate
 
-    def wrong(self, weights):
-        est = honest(self, weights)
+    def wrong(self, weights, **kwargs):
+        est = honest(self, weights, **kwargs)
         return engine.Estimate(est.value, est.stderr / math.sqrt(self.paths), est.paths)
 
     monkeypatch.setattr(engine.Joint, "estimate", wrong)
