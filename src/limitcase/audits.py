@@ -725,7 +725,8 @@ def audit_steps(
     r"""Prices at dt, dt/2, ..., dt/2^(levels-1) (dt = a quarter of the option's year).
 
     A model with ``exact = False`` (a discretisation, e.g. :class:`~limitcase.models.Heston`)
-    is stepped through its ``substeps`` parameter, every level on the same normals; with
+    is stepped through its ``substeps`` parameter (set to 1, 2, 4, ... on the option's
+    quarterly grid, whatever the model's own setting), every level on the same normals; with
     :math:`d_l = P_{l} - P_{l+1}` the successive differences, the weak order is estimated as
     :math:`\hat p = \log_2(d_{L-2}/d_{L-1})` (delta-method standard error; reported only),
     and the Richardson limit with the declared order p (``model.weak_order``),

@@ -112,6 +112,13 @@ class Heston(Model):
     ``step_var`` is the integrated variance over each grid interval by the trapezoid rule
     over the substeps, :math:`\sum (V_k^+ + V_{k+1}^+)\Delta/2`.
 
+    ``exact = False`` and ``weak_order = 1`` tell the time-step audit
+    (:func:`limitcase.audits.audit_steps`) to step the scheme through ``substeps`` and to
+    extrapolate with order 1. The default ``substeps = 4`` makes a quarterly grid a
+    1/16-year step. Measured QE bias of the one-year at-the-money call (8.6284) at the
+    default parameters: -0.013 +/- 0.007 with one step a year (2M paths), -0.017, -0.004,
+    +0.001 at dt = 1/4, 1/8, 1/16 (1M paths, +/- 0.01, common random numbers).
+
     References
     ----------
     .. [1] S. L. Heston, "A closed-form solution for options with stochastic volatility
