@@ -892,12 +892,13 @@ def reprice(
                                      None, None, None, None, "error", err)
                 outcomes[i] = Outcome(verdict="error", message=err, **base)
                 continue
-            mc = float(joint.mean[j])
-            se = math.sqrt(max(float(joint.cov[j, j]), 0.0) / joint.paths)
+            est = joint.estimate([1.0 if jj == j else 0.0 for jj in range(len(idx))])
+            mc, se = est.value, est.stderr
+            dof = joint.dof if math.isfinite(joint.dof) else None
             centre, half = 0.5 * (lo + hi), 0.5 * (hi - lo)
             d_band = mc - centre
-            p_b = p_value(d_band, se, "==", half)
-            p_f = p_value(mc - formula, se, "==")
+            p_b = p_value(d_band, se, "==", half, dof)
+            p_f = p_value(mc - formula, se, "==", 0.0, dof)
             excess = max(abs(d_band) - half, 0.0)
             z_b = excess / se if se > 0 else (0.0 if excess == 0 else math.inf)
             z_f = (mc - formula) / se if se > 0 else (0.0 if mc == formula else math.copysign(math.inf, mc - formula))
@@ -913,7 +914,7 @@ def reprice(
                 verdict="pass", value=mc, stderr=se, reference=centre, difference=d_band,
                 z=(d_band / se if se > 0 else None), p_value=min(1.0, 2.0 * min(p_b, p_f)),
                 allowance=half, allowance_reason=f"half-width of the {source} band" if half > 0 else "",
-                sense="==", message=msg, method=joint.method,
+                sense="==", message=msg, method=joint.method, dof=dof,
                 target_source=f"{source}; formula: " + ("Heston characteristic function (Lewis integral)"
                                                         if cal.model == "heston" else "Black-Scholes closed form"),
                 note=f"market {q.price:.6g} (line {q.line} of {qs.path})", **base,
