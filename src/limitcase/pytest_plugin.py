@@ -8,9 +8,11 @@ products are, in the ini file::
     limitcase_paths = 100000         # optional; default 100000, as `limitcase check`
     limitcase_seed = 20261201        # optional; default as `limitcase check`
     limitcase_alpha = 0.01           # optional; default as `limitcase check`
+    limitcase_method = auto          # optional; sampling method, as `limitcase check --method`
 
 or on the command line: ``--limitcase-payoffs PATH`` (repeatable; collected whatever other
-arguments are given), ``--limitcase-paths``, ``--limitcase-seed``, ``--limitcase-alpha``.
+arguments are given), ``--limitcase-paths``, ``--limitcase-seed``, ``--limitcase-alpha``,
+``--limitcase-method``.
 
 Every declared case of every product found becomes one item,
 ``payoffs/mine.py::MyProduct::case``, marked ``limitcase`` (``-m limitcase`` runs only
@@ -48,6 +50,7 @@ class _Settings:
     paths: int
     seed: int
     alpha: float
+    method: str
 
 
 def pytest_addoption(parser: pytest.Parser) -> None:
@@ -60,14 +63,17 @@ def pytest_addoption(parser: pytest.Parser) -> None:
                     help="Seed of the limitcase run (default: ini limitcase_seed, else limitcase's).")
     group.addoption("--limitcase-alpha", type=float, default=None, metavar="ALPHA",
                     help="Family-wise false-alarm rate over the limitcase items (Holm).")
+    group.addoption("--limitcase-method", default=None, metavar="METHOD",
+                    help="Sampling method of the limitcase items, as `limitcase check --method` (default auto).")
     parser.addini("limitcase_payoffs", type="paths", default=[],
                   help="Files or folders of product modules whose declared cases become test items.")
     parser.addini("limitcase_paths", default="", help="Monte Carlo paths per limitcase case.")
     parser.addini("limitcase_seed", default="", help="Seed of the limitcase run.")
     parser.addini("limitcase_alpha", default="", help="Family-wise false-alarm rate of the limitcase items.")
+    parser.addini("limitcase_method", default="", help="Sampling method of the limitcase items (default auto).")
 
 
-def _number(config: pytest.Config, option: str, ini: str, kind: type, default: Any) -> Any:
+def _setting(config: pytest.Config, option: str, ini: str, kind: type, default: Any) -> Any:
     value = config.getoption(option)
     if value is not None:
         return value
@@ -77,9 +83,8 @@ def _number(config: pytest.Config, option: str, ini: str, kind: type, default: A
     try:
         return kind(text)
     except ValueError:
-        raise pytest.UsageError(
-            f"{ini} = {text!r} in the ini file is not a {kind.__name__}; e.g. {ini} = {default}"
-        ) from None
+        what = {int: "a whole number", float: "a number"}.get(kind, kind.__name__)
+        raise pytest.UsageError(f"{ini} = {text!r} in the ini file is not {what}; e.g. {ini} = {default}") from None
 
 
 def _settings(config: pytest.Config) -> _Settings | None:
@@ -89,19 +94,24 @@ def _settings(config: pytest.Config) -> _Settings | None:
         return None  # not configured: collect nothing, import nothing
     from .suite import DEFAULT_ALPHA, DEFAULT_PATHS, DEFAULT_SEED
 
-    paths = _number(config, "limitcase_paths", "limitcase_paths", int, DEFAULT_PATHS)
-    seed = _number(config, "limitcase_seed", "limitcase_seed", int, DEFAULT_SEED)
-    alpha = _number(config, "limitcase_alpha", "limitcase_alpha", float, DEFAULT_ALPHA)
+    paths = _setting(config, "limitcase_paths", "limitcase_paths", int, DEFAULT_PATHS)
+    seed = _setting(config, "limitcase_seed", "limitcase_seed", int, DEFAULT_SEED)
+    alpha = _setting(config, "limitcase_alpha", "limitcase_alpha", float, DEFAULT_ALPHA)
     if paths < 100:
         raise pytest.UsageError(f"limitcase paths={paths!r} is too few; use at least 100 (default {DEFAULT_PATHS})")
     if seed < 0:
         raise pytest.UsageError(f"limitcase seed={seed!r} must be a non-negative integer")
+    from .sampling import METHODS
+
+    method = _setting(config, "limitcase_method", "limitcase_method", str, "auto")
+    if method not in METHODS:
+        raise pytest.UsageError(f"limitcase method={method!r} is not one of {', '.join(METHODS)}")
     if not 0.0 < alpha < 1.0:
         raise pytest.UsageError(f"limitcase alpha={alpha!r} must lie in (0, 1), e.g. {DEFAULT_ALPHA}")
     for p in cli + ini:
         if not p.exists():
             raise pytest.UsageError(f"limitcase payoffs path {p} does not exist; fix limitcase_payoffs / --limitcase-payoffs")
-    return _Settings(ini + tuple(p for p in cli if p not in ini), cli, paths, seed, alpha)
+    return _Settings(ini + tuple(p for p in cli if p not in ini), cli, paths, seed, alpha, method)
 
 
 def pytest_configure(config: pytest.Config) -> None:
@@ -138,7 +148,9 @@ def pytest_collection_modifyitems(session: pytest.Session, config: pytest.Config
         return
     for f in _wanted(config, st):
         node = LimitcaseFile.from_parent(session, path=f)
-        items.extend(node.collect())
+        # genitems collects the file as pytest collects any node: collection reports and
+        # item hooks fire, so counts, --collect-only and -k/-m treat the items as any other
+        items.extend(session.genitems(node))
 
 
 class LimitcaseFile(pytest.File):
@@ -240,7 +252,8 @@ class _Run:
             items = [i for i in self.session.items if isinstance(i, LimitcaseItem)]
             if item not in items:
                 items.append(item)
-            result = run_checks([i.check for i in items], paths=self.st.paths, seed=self.st.seed, alpha=self.st.alpha)
+            result = run_checks([i.check for i in items], paths=self.st.paths, seed=self.st.seed,
+                                alpha=self.st.alpha, method=self.st.method)
             self.outcomes = {i.nodeid: o for i, o in zip(items, result.outcomes)}
             self.m = len(items)
         return self.outcomes[item.nodeid]
@@ -264,6 +277,7 @@ class _Run:
         lines.append(
             f"  reproduce: limitcase check {item.path} --seed {self.st.seed} --paths {self.st.paths} "
             f"--alpha {self.st.alpha:g} --select '{o.product}/{o.case}'"
+            + (f" --method {self.st.method}" if self.st.method != "auto" else "")
         )
         return "\n".join(lines)
 
@@ -277,6 +291,6 @@ def pytest_terminal_summary(terminalreporter: Any, exitstatus: int, config: pyte
         counts[o.verdict] = counts.get(o.verdict, 0) + 1
     text = ", ".join(f"{v} {k}" for k, v in sorted(counts.items()))
     terminalreporter.write_line(
-        f"limitcase: {run.m} case(s): {text} (paths {run.st.paths}, seed {run.st.seed}, "
+        f"limitcase: {run.m} case(s): {text} (paths {run.st.paths}, seed {run.st.seed}, method {run.st.method}, "
         f"family-wise false-alarm rate {run.st.alpha:g}, Holm over the session's limitcase items)"
     )

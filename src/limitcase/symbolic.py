@@ -257,19 +257,23 @@ def _edge_paths(
     flat = base.reshape(base.shape[0], -1)
     seeds = flat[:per_kink]
     index = {s: i for i, s in enumerate(symbols)}
+    triples = []  # (kink g, price x it is linear in, dg/dx)
     for g in _kinks(expr):
-        if len(rows) >= most:
-            break
         for x in sorted(g.free_symbols & set(symbols), key=lambda s: index[s]):
-            a = sp.diff(g, x)
-            if x in a.free_symbols:
-                continue  # not linear in x
-            fg = sp.lambdify(symbols, g, modules="numpy")
-            fa = sp.lambdify(symbols, a, modules="numpy")
-            cols = [seeds[:, i] for i in range(seeds.shape[1])]
+            d = sp.diff(g, x)
+            if x not in d.free_symbols:
+                triples.append((g, x, d))
+        if len(triples) * seeds.shape[0] >= most:
+            break
+    if triples:
+        # one lambdify for every kink and its slope: generating code per kink costs far more
+        f = sp.lambdify(symbols, [t[0] for t in triples] + [t[2] for t in triples], modules="numpy")
+        cols = [seeds[:, i] for i in range(seeds.shape[1])]
+        with np.errstate(all="ignore"):
+            vals = [np.broadcast_to(np.asarray(v, dtype=float), (seeds.shape[0],)) for v in f(*cols)]
+        k = len(triples)
+        for (g, x, _), gv, av in zip(triples, vals[:k], vals[k:]):
             with np.errstate(all="ignore"):
-                gv = np.broadcast_to(np.asarray(fg(*cols), dtype=float), (seeds.shape[0],))
-                av = np.broadcast_to(np.asarray(fa(*cols), dtype=float), (seeds.shape[0],))
                 root = seeds[:, index[x]] - gv / av
             for r, row in zip(root, seeds):
                 if math.isfinite(r) and r > 0.0:

@@ -55,15 +55,23 @@ class AsianWithFormula(ArithmeticAsianCall):
         Reduction("one_fixing", {"fixings": 1},
                   becomes=lambda p: CallWithFormula(strike=p.strike, maturity=p.maturity),
                   note="a single fixing at maturity: the average is S(T), the European call"),
-        Reduction("one_fixing_wrong_base", {"fixings": 1},
-                  becomes=lambda p: PutWithFormula(strike=p.strike, maturity=p.maturity),
-                  note="deliberately wrong base (a put), for the symbolic test"),
     )
     relations = ()
 
     def formula(self):
         x = formula_symbols(self)
         return sp.Max(sp.Add(*x.S) / len(x.S) - x.strike, 0)
+
+
+class AsianWrongBase(AsianWithFormula):
+    """The same Asian call with a deliberately wrong base case (a put) at one fixing: the
+    symbolic recognition must show that the formulas differ (and the check fails)."""
+
+    reductions = (
+        Reduction("one_fixing_wrong_base", {"fixings": 1},
+                  becomes=lambda p: PutWithFormula(strike=p.strike, maturity=p.maturity),
+                  note="deliberately wrong base (a put)"),
+    )
 
 
 class KnockOutWithFormula(UpAndOutCall):

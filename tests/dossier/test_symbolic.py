@@ -80,7 +80,7 @@ def test_barrier_at_infinity_is_recognised_as_the_call():
 
 
 def test_a_wrong_base_case_is_shown_to_differ():
-    rec = recognise(P["AsianWithFormula"](), P["AsianWithFormula"].reductions[1])
+    rec = recognise(P["AsianWrongBase"](), P["AsianWrongBase"].reductions[0])
     assert rec.status == "differs"
     assert "differs" in rec.message
 

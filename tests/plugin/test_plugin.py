@@ -121,7 +121,7 @@ def test_bad_ini_value_is_a_usage_error(project: pytest.Pytester) -> None:
     _ini(project, "[pytest]\ntestpaths = tests\npython_files = check_*.py\nlimitcase_payoffs = payoffs\nlimitcase_paths = many\n")
     result = _run(project)
     assert result.ret == pytest.ExitCode.USAGE_ERROR
-    result.stderr.fnmatch_lines(["*limitcase_paths = 'many'*not a int*"])
+    result.stderr.fnmatch_lines(["*limitcase_paths = 'many'*not a whole number*"])
 
 
 def test_file_that_does_not_import_fails_one_item(project: pytest.Pytester) -> None:

@@ -8,6 +8,7 @@ import sys
 import click
 
 from ..cli_support import EXIT_FAIL, EXIT_OK, InputFailure, Progress, handle_errors, write_outputs
+from ..sampling import METHODS
 from ..suite import DEFAULT_ALPHA, DEFAULT_SEED
 
 
@@ -27,6 +28,11 @@ from ..suite import DEFAULT_ALPHA, DEFAULT_SEED
               help="Only the products whose name contains TEXT (repeatable).")
 @click.option("--regression-paths", type=click.IntRange(min=1000), default=None,
               help="Pilot paths for Longstaff-Schwartz policies (default 65536).")
+@click.option("--method", type=click.Choice(METHODS), default="auto", show_default=True,
+              help="Variance reduction of the checks, as `limitcase check --method` (sweeps and "
+                   "convergence pictures use plain Monte Carlo).")
+@click.option("--workers", type=click.IntRange(min=1), default=None,
+              help="Worker processes for the checks (default: all cores). The numbers do not depend on it.")
 @click.option("--no-audits", is_flag=True, help="Do not run the engine audits of the scenario models.")
 @click.option("--audit-paths", type=click.IntRange(min=1000), default=None,
               help="Paths of each engine audit (default 100000, as limitcase.audits uses).")
@@ -37,7 +43,8 @@ from ..suite import DEFAULT_ALPHA, DEFAULT_SEED
 @click.option("--debug", is_flag=True, help="Show tracebacks for bad input.")
 @handle_errors
 def command(paths_in: tuple[str, ...], outdir: str, paths: int, seed: int, alpha: float, points: int,
-            selects: tuple[str, ...], regression_paths: int | None, no_audits: bool, audit_paths: int | None, json_path: str | None,
+            selects: tuple[str, ...], regression_paths: int | None, method: str, workers: int | None,
+            no_audits: bool, audit_paths: int | None, json_path: str | None,
             junit_path: str | None, debug: bool) -> None:
     """Write the limit-behaviour dossier of the products in PATH (files or folders of .py
     files; default: the shipped catalogue): for each product its payoff, parameters, a
@@ -46,6 +53,7 @@ def command(paths_in: tuple[str, ...], outdir: str, paths: int, seed: int, alpha
     from ..engine import DEFAULT_REGRESSION_PATHS
     from ..loader import load_products
     from ..report.dossier import build_dossier, write_dossier
+    from ..suite import default_workers
 
     products = load_products(paths_in)
     if not products:
@@ -60,7 +68,8 @@ def command(paths_in: tuple[str, ...], outdir: str, paths: int, seed: int, alpha
         dossier = build_dossier(
             products, paths=paths, seed=seed, alpha=alpha, points=points,
             regression_paths=regression_paths or DEFAULT_REGRESSION_PATHS, selects=selects,
-            sources=list(paths_in), audits=not no_audits, audit_paths=audit_paths,
+            sources=list(paths_in), audits=not no_audits, audit_paths=audit_paths, method=method,
+            workers=workers or default_workers(),
             progress=on_progress,
         )
     finally:
@@ -85,5 +94,7 @@ def command(paths_in: tuple[str, ...], outdir: str, paths: int, seed: int, alpha
                        f"{page.formula.cross.message}")
     click.echo(f"wrote {len(written)} files to {outdir}; open {outdir}/index.html")
     reproduce = f"limitcase check {' '.join(paths_in)}".rstrip()
+    if method != "auto":
+        reproduce += f" --method {method}"
     write_outputs(dossier.result, "report", json_path, junit_path, reproduce)
     sys.exit(EXIT_OK if dossier.ok else EXIT_FAIL)

@@ -178,13 +178,17 @@ def build_dossier(
     sources: Sequence[str] = (),
     audits: bool = True,
     audit_paths: int | None = None,
+    method: str = "auto",
+    workers: int = 1,
     progress: Callable[[int, int], None] | None = None,
 ) -> Dossier:
     """Compute everything the dossier of ``products`` shows.
 
     The checks of every product are run together (:func:`limitcase.suite.run_checks`, Holm
-    over the run): with the same ``paths``, ``seed`` and ``alpha`` their verdicts are those of
-    ``limitcase check``. ``selects`` keeps the products whose name contains one of the
+    over the run, sampling ``method`` as ``limitcase check --method``, default ``auto``):
+    with the same ``paths``, ``seed``, ``alpha`` and method their verdicts are those of
+    ``limitcase check``. Sweeps and convergence runs use plain Monte Carlo (each point's
+    standard error is then the textbook ``sigma / sqrt(n)`` one). ``selects`` keeps the products whose name contains one of the
     strings (all when empty).
     """
     from .. import symbolic
@@ -228,7 +232,8 @@ def build_dossier(
             progress(min(done[0], total), total)
 
     result = run_checks(all_checks, paths=paths, seed=seed, alpha=alpha, regression_paths=regression_paths,
-                        progress=lambda i, n: progress(i, total) if progress else None)
+                        progress=lambda i, n: progress(i, total) if progress else None,
+                        method=method, workers=workers)
     done[0] = len(all_checks)
 
     for page, product, (a, b) in zip(pages, instances, spans):
@@ -293,7 +298,7 @@ def build_dossier(
             if p is not None:
                 page.audits = per.get(p.scenario().label(), [])
     settings = {
-        "paths": paths, "seed": seed, "alpha": alpha, "points": points,
+        "paths": paths, "seed": seed, "alpha": alpha, "points": points, "method": method,
         "regression_paths": regression_paths, "sources": list(sources),
         "seconds": round(time.monotonic() - started, 1),
     }
@@ -383,6 +388,8 @@ def _reproduce(d: Dossier, select: str = "") -> str:
     srcs = " ".join(d.settings.get("sources") or [])
     cmd = f"limitcase check {srcs}".rstrip()
     cmd += f" --seed {d.settings['seed']} --paths {d.settings['paths']} --alpha {d.settings['alpha']:g}"
+    if d.settings.get("method", "auto") != "auto":
+        cmd += f" --method {d.settings['method']}"
     if select:
         cmd += f" --select '{select}'"
     return cmd
@@ -390,8 +397,9 @@ def _reproduce(d: Dossier, select: str = "") -> str:
 
 def _settings_line(d: Dossier) -> str:
     s = d.settings
-    return (f"paths {s['paths']:,} per check and per sweep point, seed {s['seed']}, family-wise "
-            f"false-alarm rate {s['alpha']:g} (Holm over all {d.result.summary['total']} cases of the run); "
+    return (f"paths {s['paths']:,} per check and per sweep point, seed {s['seed']}, checks sampled by "
+            f"method {s.get('method', 'auto')}, family-wise false-alarm rate {s['alpha']:g} (Holm over all "
+            f"{d.result.summary['total']} cases of the run); sweeps and convergence runs plain Monte Carlo; "
             f"bands are 95% (value ± 1.96 standard errors)")
 
 
