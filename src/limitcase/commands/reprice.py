@@ -114,6 +114,9 @@ def render_reprice_summary(rep: Repricing, reproduce: str) -> str:
     lines = [
         f"{s['total']} quote{'' if s['total'] == 1 else 's'}: {s['pass']} pass, {s['fail']} fail, {s['error']} error "
         f"(paths {res.paths} per expiry, seed {res.seed}, {sim}; family-wise false-alarm rate {res.alpha:g}, Holm)",
+        "  formula: " + ("the Heston characteristic-function price (Lewis integral)" if rep.calibration.model == "heston"
+                         else "the Black-Scholes closed form") + " at the fitted parameters; vol pts: MC minus "
+        "market implied vol; spreads: (MC - market) / (ask - bid)",
         "  z band: how far MC lies outside the band (bid-ask, or ~[...] = market price +/- "
         f"{rep.tolerance_vol:g} vol points when no bid-ask), in SE; z formula: (MC - formula)/SE",
     ]
