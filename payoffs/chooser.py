@@ -35,8 +35,8 @@ class SimpleChooser(Product):
     call is chosen when S(t) exp(-q(T-t)) >= K exp(-r(T-t)) (t = 0: decided on S0).
 
     Limits: choice at maturity -> the straddle |S(T) - K| (path by path); choice today ->
-    the more valuable of the call and the put (path by path: the call for a strike well
-    below the forward, the put for one well above).
+    the more valuable of the call and the put (path by path: the call for a strike just
+    below the forward S0 exp((r-q)T), the put for one just above).
     Relations: max(call, put) <= chooser <= straddle (the straddle path by path).
     """
 
@@ -53,15 +53,16 @@ class SimpleChooser(Product):
         ),
         Reduction(
             "choice_today_call",
-            {"choose_time": 0.0, "strike": 80.0},
+            {"choose_time": 0.0, "maturity": 0.5, "strike": 101.0},
             becomes=lambda p: EuropeanCall(strike=p.strike, maturity=p.maturity),
-            note="t = 0 with K = 80 below the forward (about 103 in the scenario): the call, on every path",
+            note="t = 0, T = 0.5: K = 101 just below the forward 100 exp(0.015) = 101.51 of the "
+            "scenario, so the call is chosen, on every path",
         ),
         Reduction(
             "choice_today_put",
-            {"choose_time": 0.0, "strike": 120.0},
+            {"choose_time": 0.0, "maturity": 0.5, "strike": 102.0},
             becomes=lambda p: EuropeanPut(strike=p.strike, maturity=p.maturity),
-            note="t = 0 with K = 120 above the forward: the put, on every path",
+            note="t = 0, T = 0.5: K = 102 just above the forward 101.51, so the put is chosen, on every path",
         ),
         own_closed_form(note="Rubinstein (1991): a call (K, T) plus exp(-q(T-t)) puts expiring at t"),
     )

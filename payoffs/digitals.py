@@ -26,6 +26,21 @@ def _never_pays(p: Product) -> ZeroCouponBond:
     return _bond(0.0, p)
 
 
+FLAT_AT_ONE = {"spot": 1.0, "vol": 0.0, "rate": 0.05, "dividend": 0.05}
+"""Model changes under which S(T) = 1 exactly on every path (no volatility, no drift, and
+exp(log 1) = 1 carries no rounding): the case S(T) = K that a strict inequality excludes."""
+
+
+def _ends_at(level: str) -> Reduction:
+    return Reduction(
+        f"ends_at_the_{level}",
+        {level: 1.0},
+        model_changes=FLAT_AT_ONE,
+        becomes=_never_pays,
+        note=f"S(T) equal to the {level} (no volatility): neither S(T) > K nor S(T) < K, nothing is paid",
+    )
+
+
 class _Digital(Product):
     abstract = True
     strike = Param(100.0, low=0.0, doc="level S(T) is compared with")
@@ -49,6 +64,7 @@ class CashOrNothingCall(_Digital):
                   allowance=rounding(lambda p: p.cash), reason=ROUNDING_REASON,
                   note="strike 0: S(T) > 0 on every path, so C is always paid"),
         own_closed_form(note="C exp(-rT) N(d2)"),
+        _ends_at("strike"),
     )
     relations = (
         Bound("below_bond", "<=", lambda p, m: _bond(p.cash, p).reference(m),
@@ -80,6 +96,7 @@ class CashOrNothingPut(_Digital):
         Reduction("zero_strike", {"strike": 0.0}, becomes=_never_pays,
                   note="strike 0: S(T) < 0 never happens"),
         own_closed_form(note="C exp(-rT) N(-d2)"),
+        _ends_at("strike"),
     )
     relations = (
         PathIdentity(
@@ -113,6 +130,7 @@ class AssetOrNothingCall(_Digital):
         Reduction("zero_strike", {"strike": 0.0}, becomes=lambda p: PrepaidForward(maturity=p.maturity),
                   note="strike 0: the asset is always delivered"),
         own_closed_form(note="S exp(-qT) N(d1)"),
+        _ends_at("strike"),
     )
     relations = (
         PathIdentity(
@@ -148,6 +166,7 @@ class AssetOrNothingPut(_Digital):
     reductions = (
         Reduction("zero_strike", {"strike": 0.0}, becomes=_never_pays, note="strike 0: S(T) < 0 never happens"),
         own_closed_form(note="S exp(-qT) N(-d1)"),
+        _ends_at("strike"),
     )
     relations = (
         PathIdentity(
@@ -196,6 +215,7 @@ class GapCall(_Gap):
                   becomes=lambda p: EuropeanCall(strike=p.strike, maturity=p.maturity),
                   note="K1 = K2: pays S - K exactly when S > K, the European call"),
         own_closed_form(note="S exp(-qT) N(d1) - K2 exp(-rT) N(d2), d1 on K1"),
+        _ends_at("trigger"),
     )
     relations = (
         PathIdentity(
@@ -236,6 +256,7 @@ class GapPut(_Gap):
                   becomes=lambda p: EuropeanPut(strike=p.strike, maturity=p.maturity),
                   note="K1 = K2: pays K - S exactly when S < K, the European put"),
         own_closed_form(note="K2 exp(-rT) N(-d2) - S exp(-qT) N(-d1), d1 on K1"),
+        _ends_at("trigger"),
     )
     relations = (
         PathIdentity(
