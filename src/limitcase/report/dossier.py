@@ -302,6 +302,11 @@ def build_dossier(
         "regression_paths": regression_paths, "sources": list(sources),
         "seconds": round(time.monotonic() - started, 1),
     }
+    result.extra.update(
+        points=points,
+        formula_checks={p.name: p.formula.cross.status for p in pages if p.formula is not None},
+        audits={label: {o.case: o.verdict for o in outs} for label, outs in per.items()},
+    )
     return Dossier(pages, result, settings, audit_note, per)
 
 
