@@ -21,10 +21,10 @@ import math
 
 import numpy as np
 
-from limitcase import Bound, Convex, Identity, Monotone, NoReference, Param, ParamError, Product, Reduction
+from limitcase import Bound, Convex, Monotone, NoReference, Param, ParamError, Product, Reduction
 from limitcase.references import geometric_asian, margrabe_exchange
 
-from ._common import bs_inputs, own_closed_form
+from ._common import PathIdentity, bs_inputs, own_closed_form
 from .vanilla import EuropeanCall, EuropeanPut, PrepaidForward, ZeroCouponBond
 
 
@@ -61,8 +61,24 @@ class _FloatingStrike(_Averaging):
     ratio = Param(1.0, low=0.0, doc="strike as a multiple of the average (1: the standard floating strike)")
 
 
-def _one_fixing(becomes, note: str) -> Reduction:
-    return Reduction("one_fixing", {"fixings": 1}, becomes=becomes, note=note)
+def _one_fixing(becomes, note: str, **changes) -> Reduction:
+    """One fixing: at maturity whatever the window's start (moved to mid-life, so that the
+    case also sees the schedule's use of the start)."""
+    return Reduction(
+        "one_fixing", {"fixings": 1, "start": lambda p: p.maturity / 2, **changes}, becomes=becomes, note=note
+    )
+
+
+def _closed_form(note: str) -> Reduction:
+    """The product's own closed form, at the strike moved 10 off its default (the
+    scenario's spot), so that a strike confused with the spot shows."""
+    return own_closed_form(changes={"strike": lambda p: p.strike + 10.0}, note=note + ", at K + 10 (off the spot)")
+
+
+def _late_window(p):
+    """The same product averaging over the second half of its life only (start T/2): the
+    point where the identities are checked, so that the window's start is exercised too."""
+    return p.replace(start=p.maturity / 2)
 
 
 def _euro_call(p) -> EuropeanCall:
@@ -107,16 +123,16 @@ class AverageForward(_FixedStrike):
 
     nonnegative = False
 
-    reductions = (own_closed_form(note="exp(-rT) (mean of the forwards at the fixings - K)"),)
+    reductions = (_closed_form("exp(-rT) (mean of the forwards at the fixings - K)"),)
     relations = (
-        Identity(
+        PathIdentity(
             "put_call_parity",
             lambda p: [
-                (1.0, ArithmeticAsianCall(strike=p.strike, **p.schedule())),
-                (-1.0, ArithmeticAsianPut(strike=p.strike, **p.schedule())),
-                (-1.0, p),
+                (1.0, ArithmeticAsianCall(strike=p.strike, **_late_window(p).schedule())),
+                (-1.0, ArithmeticAsianPut(strike=p.strike, **_late_window(p).schedule())),
+                (-1.0, _late_window(p)),
             ],
-            note="max(A - K, 0) - max(K - A, 0) = A - K on every path",
+            note="max(A - K, 0) - max(K - A, 0) = A - K on every path (averaging window (T/2, T])",
         ),
         Monotone("strike", -1, to=lambda p: p.strike + 10.0, pathwise=True),
     )
@@ -143,7 +159,7 @@ class GeometricAsianCall(_FixedStrike):
     """
 
     reductions = (
-        own_closed_form(note="Kemna-Vorst: the geometric average is log-normal"),
+        _closed_form("Kemna-Vorst: the geometric average is log-normal"),
         _one_fixing(_euro_call, "a single fixing at maturity: G = S(T), the European call"),
     )
     relations = _strike_checks(-1)
@@ -169,7 +185,7 @@ class GeometricAsianPut(_FixedStrike):
     """
 
     reductions = (
-        own_closed_form(note="Kemna-Vorst: the geometric average is log-normal"),
+        _closed_form("Kemna-Vorst: the geometric average is log-normal"),
         _one_fixing(_euro_put, "a single fixing at maturity: G = S(T), the European put"),
         Reduction("zero_strike", {"strike": 0.0}, becomes=_nothing, note="max(-G, 0) = 0 on every path"),
     )
@@ -208,14 +224,14 @@ class ArithmeticAsianCall(_FixedStrike):
         ),
     )
     relations = (
-        Identity(
+        PathIdentity(
             "put_call_parity",
             lambda p: [
-                (1.0, p),
-                (-1.0, ArithmeticAsianPut(strike=p.strike, **p.schedule())),
-                (-1.0, AverageForward(strike=p.strike, **p.schedule())),
+                (1.0, _late_window(p)),
+                (-1.0, ArithmeticAsianPut(strike=p.strike, **_late_window(p).schedule())),
+                (-1.0, AverageForward(strike=p.strike, **_late_window(p).schedule())),
             ],
-            note="max(A - K, 0) - max(K - A, 0) = A - K on every path",
+            note="max(A - K, 0) - max(K - A, 0) = A - K on every path (averaging window (T/2, T])",
         ),
         Bound(
             "above_geometric",
@@ -303,20 +319,24 @@ def _geometric_floating(product: _FloatingStrike, model, kind: str) -> float:
     return margrabe_exchange(strike_leg, spot, big_t, 0.0, dividend, rel_vol, 0.0, 0.0)
 
 
-def _floating_parity(partner, average, sign: float) -> Identity:
+def _floating_parity(partner, average, sign: float) -> PathIdentity:
     """Put-call parity of a floating-strike option, from its own side (``sign`` +1 for the
     call, -1 for the put): ``call - put = S(T) - k X`` on every path, X the average, paid
     by the fixed-strike call struck at 0 (``average``)."""
 
     def legs(p):
+        q = _late_window(p)
         return [
-            (1.0, p),
-            (-1.0, partner(p)),
-            (-sign, PrepaidForward(maturity=p.maturity)),
-            (sign * p.ratio, average(strike=0.0, **p.schedule())),
+            (1.0, q),
+            (-1.0, partner(q)),
+            (-sign, PrepaidForward(maturity=q.maturity)),
+            (sign * q.ratio, average(strike=0.0, **q.schedule())),
         ]
 
-    return Identity("put_call_parity", legs, note="max(S(T) - kX, 0) - max(kX - S(T), 0) = S(T) - kX on every path")
+    return PathIdentity(
+        "put_call_parity", legs,
+        note="max(S(T) - kX, 0) - max(kX - S(T), 0) = S(T) - kX on every path (averaging window (T/2, T])",
+    )
 
 
 def _floating_reductions(kind: str) -> tuple:
@@ -328,11 +348,9 @@ def _floating_reductions(kind: str) -> tuple:
     else:
         zero = Reduction("zero_ratio", {"ratio": 0.0}, becomes=_nothing, note="ratio 0: max(-S(T), 0) = 0 on every path")
     return (
-        Reduction(
-            "one_fixing",
-            {"fixings": 1, "ratio": 1.0},
-            becomes=_nothing,
-            note="a single fixing at maturity with ratio 1: the strike is S(T) itself, the option pays nothing",
+        _one_fixing(
+            _nothing, "a single fixing at maturity with ratio 1: the strike is S(T) itself, the option pays nothing",
+            ratio=1.0,
         ),
         zero,
     )
