@@ -296,3 +296,20 @@ def test_charfn_bad_input():
         heston_charfn(1.0, 1.0, 0.0, 0.0, 0.04, 1.0, 0.04, 0.5, 2.0)
     with pytest.raises(ParamError, match="u="):
         heston_charfn("x", 1.0, 0.0, 0.0, 0.04, 1.0, 0.04, 0.5, 0.0)
+
+
+def test_long_tailed_integrand_falls_back_to_adaptive_quadrature():
+    """Tiny variance with a large vol-of-vol: the fixed grid cannot settle, the adaptive
+    quadrature takes over; the result must satisfy put-call parity and the no-arbitrage
+    bounds (common practice) rather than crash."""
+    import numpy as np
+
+    from limitcase.references import heston_price
+
+    K = np.array([80.0, 100.0, 120.0])
+    args = (100.0, K, 1.0, 0.01, 0.0, 2e-4, 0.2, 2e-4, 1.9, -0.3)
+    c = heston_price(*args, kind="call")
+    p = heston_price(*args, kind="put")
+    assert np.all(np.isfinite(c))
+    assert np.allclose(c - p, 100.0 - K * np.exp(-0.01), atol=1e-8)
+    assert np.all(c >= np.maximum(100.0 - K * np.exp(-0.01), 0.0) - 1e-10) and np.all(c <= 100.0)

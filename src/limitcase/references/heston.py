@@ -14,7 +14,6 @@ Black-Scholes closed form; it shares no code with the Monte Carlo side.
 from __future__ import annotations
 
 import math
-import warnings
 from typing import Any
 
 import numpy as np
@@ -227,13 +226,9 @@ def _lewis_integral_fixed(logm: np.ndarray, params: tuple[float, ...]) -> np.nda
         if prev is not None and np.max(np.abs(vals - prev)) < _TOL:
             return vals
         if nodes.size * 2 > _MAX_NODES:
-            warnings.warn(
-                f"heston_price: the Lewis integral did not settle to {_TOL:g} within "
-                f"{nodes.size} nodes (last change {np.max(np.abs(vals - prev))!r}); the price "
-                f"may be inaccurate for these parameters",
-                stacklevel=3,
-            )
-            return vals
+            # the fixed grid cannot be refined further (tiny variance with a large
+            # vol-of-vol makes the integrand very long-tailed): use adaptive quadrature
+            return _lewis_integral_quad(logm, params)
         prev = vals
         scale *= 0.5
 
