@@ -7,7 +7,7 @@ them on common paths with standard errors; the verdict applies Holm's correction
 
 from .engine import BLOCK, Estimate, evaluate, price
 from .errors import InputError, LimitcaseError, ModelError, NoReference, ParamError, PayoffError
-from .models import BlackScholes, Model, MultiBlackScholes
+from .models import BlackScholes, Heston, Merton, Model, MultiBlackScholes
 from .params import Param
 from .product import Cashflows, Observed, Product
 from .reduce import Bound, Check, Convex, Identity, Monotone, Reduction, Relation, checks_for
@@ -21,9 +21,11 @@ __all__ = [
     "Check",
     "Convex",
     "Estimate",
+    "Heston",
     "Identity",
     "InputError",
     "LimitcaseError",
+    "Merton",
     "Model",
     "ModelError",
     "Monotone",

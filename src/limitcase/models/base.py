@@ -51,6 +51,9 @@ class Model(Parametrised):
 
     abstract: ClassVar[bool] = True
     n_assets: int = 1
+    exact: ClassVar[bool] = True
+    """Whether the transition between any two dates is simulated without discretisation
+    bias (the time-step audit then expects no step dependence)."""
     degenerations: ClassVar[tuple[Degeneration, ...]] = ()
 
     def __init_subclass__(cls, **kwargs: Any) -> None:
