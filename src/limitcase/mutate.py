@@ -978,7 +978,9 @@ class PointDifference:
     ``edge_differences`` of ``edge_paths`` deterministic paths differ; ``random_violations``
     of ``random_paths`` simulated paths differ (``None`` when not simulated); ``difference``
     is the mean present-value difference mutant - original on those paths and ``stderr``
-    its standard error; ``note`` says when one side raised or the dates differ.
+    its standard error; ``reference_price`` the original's mean present value there and
+    ``price_sd`` the standard deviation of the mutant's present value per path; ``note`` says
+    when one side raised or the dates differ.
     """
 
     point: str
@@ -989,6 +991,7 @@ class PointDifference:
     difference: float | None = None
     stderr: float | None = None
     reference_price: float | None = None
+    price_sd: float | None = None
     note: str = ""
 
     @property
@@ -1113,9 +1116,9 @@ def probe_difference(mutant_cls: type[Product], original: type[Product], *, path
     n, bad, note = _edge_compare(orig, pt.product, pt.model, seed)
     if note and "dates" in note:
         return PointDifference(pt.label, n, bad, note=note)
-    v, diff, se, price, rnote = _random_compare(orig, pt.product, pt.model, paths, seed,
-                                                case_key(original.__name__, "mutation-probe"))
-    return PointDifference(pt.label, n, bad, paths, v, diff, se, price, note or rnote)
+    v, diff, se, price, sd, rnote = _random_compare(orig, pt.product, pt.model, paths, seed,
+                                                    case_key(original.__name__, "mutation-probe"))
+    return PointDifference(pt.label, n, bad, paths, v, diff, se, price, sd, note or rnote)
 
 
 def _levels(product: Product, s0: np.ndarray) -> list[float]:
@@ -1259,8 +1262,8 @@ def _edge_compare(original: Product, mutant: Product, model: Model, seed: int) -
 
 
 def _random_compare(original: Product, mutant: Product, model: Model, paths: int, seed: int, key: int
-                    ) -> tuple[int | None, float | None, float | None, float | None, str]:
-    """``(violations, difference, stderr, original price, note)`` on simulated paths."""
+                    ) -> tuple[int | None, float | None, float | None, float | None, float | None, str]:
+    """``(violations, difference, stderr, original price, mutant's sd, note)`` on simulated paths."""
     kw = dict(paths=paths, seed=seed, key=key, regression_paths=EQUIVALENCE_REGRESSION_PATHS)
     try:
         with np.errstate(all="ignore"), warnings.catch_warnings():
@@ -1272,10 +1275,11 @@ def _random_compare(original: Product, mutant: Product, model: Model, paths: int
                 warnings.simplefilter("ignore")
                 evaluate([original], model, **kw)
         except Exception:
-            return 0, None, None, None, ""  # both fail alike: the original is broken here
-        return None, None, None, None, f"the mutant raises on simulated paths: {type(exc).__name__}: {exc}"
+            return 0, None, None, None, None, ""  # both fail alike: the original is broken here
+        return None, None, None, None, None, f"the mutant raises on simulated paths: {type(exc).__name__}: {exc}"
     est = joint.estimate((1.0, -1.0))
-    return joint.rules[0].violations, est.value, est.stderr, float(joint.mean[1]), ""
+    sd = math.sqrt(max(float(joint.cov[0, 0]), 0.0))
+    return joint.rules[0].violations, est.value, est.stderr, float(joint.mean[1]), sd, ""
 
 
 def equivalence(mutant_cls: type[Product], original: type[Product], *, paths: int = EQUIVALENCE_PATHS,
@@ -1320,9 +1324,9 @@ def equivalence(mutant_cls: type[Product], original: type[Product], *, paths: in
             if stop_early:
                 break
             continue
-        v, diff, se, price, rnote = _random_compare(orig, pt.product, pt.model, paths, seed,
-                                                    case_key(name, "mutation-equivalence", str(i)))
-        pd = PointDifference(pt.label, n, bad, paths, v, diff, se, price, note or rnote)
+        v, diff, se, price, sd, rnote = _random_compare(orig, pt.product, pt.model, paths, seed,
+                                                        case_key(name, "mutation-equivalence", str(i)))
+        pd = PointDifference(pt.label, n, bad, paths, v, diff, se, price, sd, note or rnote)
         results.append(pd)
         if stop_early and pd.differs:
             break
@@ -1787,14 +1791,15 @@ def _declared(cls: type[Product]) -> tuple[list[str], list[str]]:
     return reds, rels
 
 
-def _paths_needed(p: PointDifference, alpha: float, m: int, paths: int) -> int | None:
-    """Paths a two-sided check at this point would need to see the mean shift with 90%
-    power at the strictest Holm level, if its noise were that of the difference here."""
-    if p.difference is None or p.stderr is None or p.random_paths <= 0 or p.difference == 0:
+def _paths_needed(p: PointDifference, alpha: float, m: int) -> int | None:
+    """Paths a two-sided check of the mutant against a trusted price at this point would
+    need to see its mean shift with 90% power at the strictest Holm level over ``m``
+    checks: ``n = ((z_{1-alpha/(2m)} + z_{0.9}) sd / |shift|)^2``, ``sd`` the standard
+    deviation of the mutant's present value per path (the check's noise)."""
+    if p.difference is None or p.price_sd is None or p.difference == 0:
         return None
-    sd = p.stderr * math.sqrt(p.random_paths)
     z = norm.isf(alpha / max(m, 1) / 2.0) + norm.isf(1.0 - POWER)
-    return int(math.ceil((z * sd / abs(p.difference)) ** 2))
+    return int(math.ceil((z * p.price_sd / abs(p.difference)) ** 2))
 
 
 def suggest(mutant: Mutant, eq: Equivalence | None, checks: Sequence[Check] | None = None,
@@ -1818,10 +1823,12 @@ def suggest(mutant: Mutant, eq: Equivalence | None, checks: Sequence[Check] | No
         differ = [p for p in eq.points if p.differs]
         same = [p.point for p in eq.points if not p.differs]
         if eq.edge_only:
+            n_random = max((p.random_paths for p in eq.points), default=0)
             parts.append(
-                "It pays differently only on paths that sit exactly on a level (e.g. S equal to "
-                f"{involved} on a date), which a continuous model reaches with probability 0, so no Monte "
-                "Carlo check under the scenario can see it."
+                "It pays differently only on the deterministic edge paths (paths on or touching the levels "
+                f"{involved} compares with), never on the {n_random:,} simulated paths of each check point: "
+                "the difference needs a price exactly on a level (probability 0 under a continuous model) or "
+                "an event too rare to move a price check."
             )
         elif differ:
             shown = []
@@ -1833,6 +1840,8 @@ def suggest(mutant: Mutant, eq: Equivalence | None, checks: Sequence[Check] | No
                                  f"{p.random_violations} of {p.random_paths} paths differ")
                 elif p.note:
                     shown.append(f"{p.point}: {p.note}")
+                else:
+                    shown.append(f"{p.point}: {p.edge_differences} of {p.edge_paths} edge paths differ")
             parts.append("It changes the cash flows at " + "; ".join(shown) + ".")
             if same:
                 parts.append("It pays exactly the original at " + "; ".join(same[:4])
@@ -1841,14 +1850,14 @@ def suggest(mutant: Mutant, eq: Equivalence | None, checks: Sequence[Check] | No
             best = max((p for p in differ if p.difference is not None and p.stderr),
                        key=lambda p: abs(p.difference) / p.stderr, default=None)  # type: ignore[operator]
             if best is not None:
-                need = _paths_needed(best, alpha, max(len(checks or ()), 1), best.random_paths)
-                if need is not None and need > 1:
-                    parts.append(f"A check against a trusted price at {best.point} would need about "
-                                 f"{need:,} paths to see the shift with {POWER:.0%} power.")
+                need = _paths_needed(best, alpha, max(len(checks or ()), 1))
+                if need is not None:
+                    parts.append(f"A check of it against a trusted price at {best.point} would see the shift "
+                                 f"with {POWER:.0%} power from about {max(need, 2):,} paths.")
 
     op = mu.operator
     rec: list[str] = []
-    if eq is not None and eq.edge_only:
+    if eq is not None and eq.edge_only and op == "compare_strict":
         lvl = next((p for p in mu.params_involved if _role(p) in ("barrier", "strike")), None)
         where = f"{lvl} set to the spot" if lvl else "the level set to the spot"
         rec.append(

@@ -58,13 +58,28 @@ def _survivors(report: Any) -> str:
     return "\n".join(out)
 
 
+def _hidden(r: Any) -> bool:
+    return bool(r.status == "equivalent" and r.suggestion)
+
+
 def _equivalents(report: Any) -> str:
     eq = [r for r in report.results if r.status == "equivalent"]
     if not eq:
         return ""
-    lines = [f"equivalent mutants (identical cash flows at every check point; not scored): {len(eq)}"]
-    for r in eq:
-        lines.append(f"  {r.id}  {r.operator}: {r.description}  ({r.location})")
+    lines = []
+    hidden = [r for r in eq if _hidden(r)]
+    if hidden:
+        lines.append(f"equivalent ONLY AT THE CHECK POINTS (they pay differently elsewhere; not scored): {len(hidden)}")
+        for r in hidden:
+            lines.append(f"  {r.id}  {r.operator}: {r.description}  ({r.location})")
+            lines.append(textwrap.indent(textwrap.fill("-> " + r.suggestion, 100), "    "))
+        lines.append("")
+    plain = [r for r in eq if not _hidden(r)]
+    if plain:
+        lines.append(f"equivalent mutants (identical cash flows at every check point and off them; not scored): "
+                     f"{len(plain)}")
+        for r in plain:
+            lines.append(f"  {r.id}  {r.operator}: {r.description}  ({r.location})")
     return "\n".join(lines)
 
 
@@ -155,6 +170,10 @@ def command(paths_in: tuple[str, ...], paths: int, quick_paths: int | None, equi
         f"{report.runtime:.1f} s on {s['workers']} worker(s) (first pass {s['quick_paths']} paths, "
         f"survivors {s['paths']} paths, seed {s['seed']})"
     )
+    hidden = sum(1 for r in report.results if _hidden(r))
+    if hidden:
+        click.echo(f"{hidden} equivalent mutant(s) pay differently off the check points: the checks never vary "
+                   "what that code reads (listed above).")
     if report.false_alarms:
         click.echo("")
         click.echo(f"FALSE ALARM: {len(report.false_alarms)} check(s) of the UNMUTATED products do not pass at "
