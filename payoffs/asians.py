@@ -69,10 +69,12 @@ def _one_fixing(becomes, note: str, **changes) -> Reduction:
     )
 
 
-def _closed_form(note: str) -> Reduction:
-    """The product's own closed form, at the strike moved 10 off its default (the
-    scenario's spot), so that a strike confused with the spot shows."""
-    return own_closed_form(changes={"strike": lambda p: p.strike + 10.0}, note=note + ", at K + 10 (off the spot)")
+def _closed_form(note: str, shift: float) -> Reduction:
+    """The product's own closed form, at the strike moved ``shift`` off its default (the
+    scenario's spot) out of the money, so that a strike confused with the spot shows."""
+    return own_closed_form(
+        changes={"strike": lambda p: p.strike + shift}, note=f"{note}, at K {shift:+g} (out of the money, off the spot)"
+    )
 
 
 def _late_window(p):
@@ -123,7 +125,7 @@ class AverageForward(_FixedStrike):
 
     nonnegative = False
 
-    reductions = (_closed_form("exp(-rT) (mean of the forwards at the fixings - K)"),)
+    reductions = (_closed_form("exp(-rT) (mean of the forwards at the fixings - K)", +10.0),)
     relations = (
         PathIdentity(
             "put_call_parity",
@@ -159,7 +161,7 @@ class GeometricAsianCall(_FixedStrike):
     """
 
     reductions = (
-        _closed_form("Kemna-Vorst: the geometric average is log-normal"),
+        _closed_form("Kemna-Vorst: the geometric average is log-normal", +10.0),
         _one_fixing(_euro_call, "a single fixing at maturity: G = S(T), the European call"),
     )
     relations = _strike_checks(-1)
@@ -185,7 +187,7 @@ class GeometricAsianPut(_FixedStrike):
     """
 
     reductions = (
-        _closed_form("Kemna-Vorst: the geometric average is log-normal"),
+        _closed_form("Kemna-Vorst: the geometric average is log-normal", -10.0),
         _one_fixing(_euro_put, "a single fixing at maturity: G = S(T), the European put"),
         Reduction("zero_strike", {"strike": 0.0}, becomes=_nothing, note="max(-G, 0) = 0 on every path"),
     )
