@@ -421,7 +421,10 @@ def _sobol_engine(seed: np.random.SeedSequence, dim: int, r: int, position: int)
         if len(_ENGINES) >= _ENGINE_CACHE_LIMIT:
             _ENGINES.clear()
         ss = np.random.SeedSequence(seed.entropy, spawn_key=tuple(seed.spawn_key) + (_SOBOL_TAG, 0, dim, r))
-        eng = qmc.Sobol(dim, scramble=True, bits=SOBOL_BITS, rng=np.random.Generator(np.random.PCG64(ss)))
+        # a 128-bit integer drawn from the scramble's SeedSequence (scipy seeds its own PCG64
+        # from it; cheaper than handing over a Generator, which scipy deep-copies)
+        words = ss.generate_state(4, np.uint32)
+        eng = qmc.Sobol(dim, scramble=True, bits=SOBOL_BITS, rng=int.from_bytes(words.tobytes(), "little"))
         entry = _ENGINES[tag] = [eng, 0]
     eng, pos = entry
     if pos != position:

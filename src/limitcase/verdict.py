@@ -93,12 +93,28 @@ class Outcome:
         return d
 
 
+class _T:
+    """Student's t with ``dof`` degrees of freedom, unfrozen (freezing costs milliseconds)."""
+
+    def __init__(self, dof: float) -> None:
+        self.dof = dof
+
+    def sf(self, x: float) -> float:
+        return float(student_t.sf(x, self.dof))
+
+    def cdf(self, x: float) -> float:
+        return float(student_t.cdf(x, self.dof))
+
+    def isf(self, q: float) -> float:
+        return float(student_t.isf(q, self.dof))
+
+
 def _dist(dof: float | None) -> Any:
     if dof is None or not math.isfinite(dof) or dof > 1e7:
         return norm
     if dof < 1:
         raise ValueError(f"dof={dof!r} must be >= 1 (or None/inf for a large-sample standard error)")
-    return student_t(dof)
+    return _T(dof)
 
 
 def p_value(diff: float, se: float, sense: str, allowance: float = 0.0, dof: float | None = None) -> float:
