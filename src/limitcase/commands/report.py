@@ -7,6 +7,7 @@ import sys
 
 import click
 
+from ..report.dossier import REPORT_PATHS
 from ..cli_support import EXIT_FAIL, EXIT_OK, InputFailure, Progress, handle_errors, write_outputs
 from ..sampling import METHODS
 from ..suite import DEFAULT_ALPHA, DEFAULT_SEED
@@ -16,7 +17,7 @@ from ..suite import DEFAULT_ALPHA, DEFAULT_SEED
 @click.argument("paths_in", metavar="[PATH]...", nargs=-1, type=click.Path())
 @click.option("-o", "--output", "outdir", type=click.Path(file_okay=False), default="dossier", show_default=True,
               help="Folder to write index.html, one page per product, Markdown twins and img/.")
-@click.option("--paths", type=click.IntRange(min=100), default=20_000, show_default=True,
+@click.option("--paths", type=click.IntRange(min=100), default=REPORT_PATHS, show_default=True,
               help="Monte Carlo paths per check and per sweep point (raise it for sharper pictures).")
 @click.option("--seed", type=click.IntRange(min=0), default=DEFAULT_SEED, show_default=True,
               help="Seed of the run; every case draws its own streams from it.")

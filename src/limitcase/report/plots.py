@@ -19,7 +19,7 @@ from matplotlib import mathtext
 from matplotlib.backends.backend_agg import FigureCanvasAgg
 from matplotlib.figure import Figure
 from matplotlib.font_manager import FontProperties
-from matplotlib.ticker import FuncFormatter, NullFormatter, NullLocator
+from matplotlib.ticker import FuncFormatter, LogLocator, NullFormatter, NullLocator
 
 if TYPE_CHECKING:  # pragma: no cover
     from ..sweep import Convergence, StepSweep, Sweep
@@ -44,7 +44,9 @@ _PLAIN = FuncFormatter(lambda v, _: f"{v:g}")
 
 def _plain_log_y(ax) -> None:
     # plain numbers instead of mathtext powers of ten: readable, and far cheaper to draw
+    ax.yaxis.set_major_locator(LogLocator(base=10.0, subs=(1.0, 2.0, 5.0)))
     ax.yaxis.set_major_formatter(_PLAIN)
+    ax.yaxis.set_minor_locator(NullLocator())
     ax.yaxis.set_minor_formatter(NullFormatter())
 
 
@@ -99,7 +101,8 @@ def sweep_png(sweep: "Sweep", title: str | None = None) -> bytes:
     ax.set_title(title or f"{plan.product} / {plan.case}", fontsize=11)
     ax.grid(True, color="#dddddd", lw=0.6)
     ax.legend(loc="best", fontsize=8, frameon=False)
-    fig.tight_layout()
+    # fixed margins: tight_layout would draw the figure a second time to measure it
+    fig.subplots_adjust(left=0.085, right=0.985, bottom=0.2, top=0.91)
     return _png(fig)
 
 
@@ -129,7 +132,7 @@ def convergence_png(conv: "Convergence") -> bytes:
     ax2.set_title("estimate with 95% band", fontsize=10)
     ax2.grid(True, which="both", color="#e4e4e4", lw=0.5)
     fig.suptitle(conv.product.label(), fontsize=11)
-    fig.tight_layout()
+    fig.subplots_adjust(left=0.08, right=0.985, bottom=0.24, top=0.82, wspace=0.25)
     return _png(fig)
 
 
@@ -148,7 +151,7 @@ def steps_png(steps: "StepSweep") -> bytes:
     ax.set_ylabel("price")
     ax.set_title(f"{steps.product.label()}: time step", fontsize=10)
     ax.grid(True, color="#e4e4e4", lw=0.5)
-    fig.tight_layout()
+    fig.subplots_adjust(left=0.12, right=0.97, bottom=0.17, top=0.88)
     return _png(fig)
 
 
