@@ -200,8 +200,9 @@ class Autocallable(_Note):
     )
 
     def sure_coupons(self) -> "Autocallable":
-        """The same autocall with every coupon paid and the capital protected."""
-        return self.replace(coupon_barrier=0.0, protection=0.0, memory=0)
+        """The same autocall with every coupon paid and the capital protected (built from
+        the class itself, so that a subclass's payoff is compared with the original's)."""
+        return Autocallable(**{**self.params(), "coupon_barrier": 0.0, "protection": 0.0, "memory": 0})
 
     def payoff(self, obs):
         perf = obs.s / obs.s0
@@ -258,7 +259,7 @@ def _nodes(lo: float, hi: float, levels: tuple[float, ...], step_sd: float) -> t
     edges = np.unique([lo, hi, *inside])
     xs, ws = [], []
     for a, b in zip(edges[:-1], edges[1:]):
-        u, w = _gauss_legendre(max(16, math.ceil(NODES_PER_SD * (b - a) / step_sd)))
+        u, w = _gauss_legendre(16 * math.ceil(NODES_PER_SD * (b - a) / step_sd / 16))  # a few sizes, cached
         xs.append(0.5 * (b - a) * u + 0.5 * (a + b))
         ws.append(0.5 * (b - a) * w)
     return np.concatenate(xs), np.concatenate(ws)
@@ -332,9 +333,10 @@ def autocall_by_quadrature(
     n = len(dates)
     drift = rate - dividend - 0.5 * vol * vol
     call_level, due_level, floor = _log(trigger), _log(coupon_barrier), _log(protection)
-    owed = np.arange(1, n + 1)[:, None] if memory else np.ones((n, 1))
+    states = n if memory else 1  # coupons owed before a date: 0 .. n - 1 (with memory)
+    owed = np.arange(1, states + 1)[:, None]
     x = np.zeros(1)
-    g = np.zeros((n, 1))  # g[k, j]: mass at node j with k coupons owed
+    g = np.zeros((states, 1))  # g[k, j]: mass at node j with k coupons owed
     g[0, 0] = 1.0
     value, t_prev = 0.0, 0.0
     for i, t in enumerate(dates):
@@ -354,8 +356,10 @@ def autocall_by_quadrature(
             value += discount * notional * float((g.sum(axis=0) * repaid).sum())
             break
         value += discount * notional * float(g[:, called].sum())
-        carried = np.zeros_like(g)
-        carried[0] = np.where(due, g.sum(axis=0), 0.0)  # a coupon paid clears what is owed
-        carried[1:] = np.where(due, 0.0, g[:-1])  # a coupon missed is owed one more
-        x, g, t_prev = nodes[~called], carried[:, ~called], t
+        if memory:
+            carried = np.zeros_like(g)
+            carried[0] = np.where(due, g.sum(axis=0), 0.0)  # a coupon paid clears what is owed
+            carried[1:] = np.where(due, 0.0, g[:-1])  # a coupon missed is owed one more
+            g = carried
+        x, g, t_prev = nodes[~called], g[:, ~called], t
     return value

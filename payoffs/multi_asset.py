@@ -1,7 +1,7 @@
 """Options on several assets under correlated geometric Brownian motion.
 
 Every product here sets ``multi_asset = True``: its payoff reads ``obs.s`` of shape
-``(paths, dates, assets)``, and its scenario is :func:`market`, an invented market of
+``(paths, dates, assets)``, and its scenario is :func:`correlated_market`, an invented market of
 correlated assets (illustrative numbers, not market data).
 
 How the limits are checked. A multi-asset option collapses to a one-asset option in three
@@ -23,12 +23,12 @@ from __future__ import annotations
 from typing import Callable
 
 import numpy as np
+from numpy.polynomial.polynomial import polyval
 
 from limitcase import (
     BlackScholes,
     Bound,
     Convex,
-    Identity,
     Model,
     Monotone,
     MultiBlackScholes,
@@ -40,6 +40,7 @@ from limitcase import (
 )
 from limitcase.references import margrabe_exchange
 
+from ._common import PathIdentity, own_closed_form
 from .vanilla import EuropeanCall, EuropeanPut
 
 MAX_ASSETS = 20
@@ -50,7 +51,7 @@ _DIVIDENDS = (0.01, 0.02, 0.0, 0.03, 0.015)
 _DECAY = 0.5  # correlation between assets i and j in the scenario: _DECAY ** |i - j|
 
 
-def market(n: int) -> MultiBlackScholes:
+def correlated_market(n: int) -> MultiBlackScholes:
     """The scenario of the multi-asset checks: ``n`` correlated assets (invented numbers).
 
     Asset ``i`` takes the ``i % 5``-th of the spots (100, 95, 105, 90, 110), volatilities
@@ -111,12 +112,26 @@ def combined_asset(spot_of: Callable[[Product, np.ndarray], float]) -> Callable[
 
 
 # Model changes the reductions use, all taken from the scenario so they hold on any model.
-ONE_ASSET = market(1).params()
+ONE_ASSET = correlated_market(1).params()
 COMONOTONE = {"vols": _VOLS[0], "dividends": _DIVIDENDS[0], "correlation": 1.0}
 RISKLESS_SECOND = {"spots": _SPOTS[:2], "vols": (_VOLS[0], 0.0), "dividends": (_DIVIDENDS[0], RATE), "rate": RATE}
 """Asset 2 with no volatility and a dividend yield equal to the rate stays at S2(0) = 95."""
 
 _first_alone = lambda model, product: marginal(model, 0)  # noqa: E731
+
+
+def at_expiry(obs) -> np.ndarray:
+    """S_i(T) of every asset, shape ``(paths, assets)``: the one date of a European option."""
+    return obs.s[:, -1, :]
+
+
+def weighted_by_decay(decay: float, values: np.ndarray) -> float:
+    """sum_i decay**i v_i / sum_i decay**i by Horner's rule (``numpy.polynomial`` polyval).
+
+    The basket of ``values`` (spots, forwards), written apart from the payoff's weights so
+    that the checks test them.
+    """
+    return float(polyval(decay, values) / polyval(decay, np.ones_like(values)))
 
 
 def _prepaid(model: Model, asset: int, maturity: float) -> float:
@@ -142,7 +157,7 @@ class _SeveralAssets(Product):
         return np.array([self.maturity])
 
     def scenario(self) -> MultiBlackScholes:
-        return market(self.assets)
+        return correlated_market(self.assets)
 
 
 # ---------------------------------------------------------------------------------------
@@ -196,7 +211,7 @@ class AssetCall(_OneAsset):
     )
 
     def payoff(self, obs):
-        return np.maximum(obs.s[:, -1, self.asset] - self.strike, 0.0)
+        return np.maximum(at_expiry(obs)[:, self.asset] - self.strike, 0.0)
 
 
 class AssetPut(_OneAsset):
@@ -224,7 +239,7 @@ class AssetPut(_OneAsset):
     )
 
     def payoff(self, obs):
-        return np.maximum(self.strike - obs.s[:, -1, self.asset], 0.0)
+        return np.maximum(self.strike - at_expiry(obs)[:, self.asset], 0.0)
 
 
 # ---------------------------------------------------------------------------------------
@@ -248,7 +263,7 @@ class _Basket(_SeveralAssets):
 
     def basket(self, obs) -> np.ndarray:
         """B(T) = sum_i w_i S_i(T), shape (paths,)."""
-        return obs.s[:, -1, :] @ self.weights
+        return at_expiry(obs) @ self.weights
 
 
 def _basket_reductions(european: type[Product], one_asset: type[Product]) -> tuple[Reduction, ...]:
@@ -273,7 +288,7 @@ def _basket_reductions(european: type[Product], one_asset: type[Product]) -> tup
             {"decay": 0.5},
             becomes=lambda p: european(strike=p.strike, maturity=p.maturity),
             model_changes=COMONOTONE,
-            reference_model=combined_asset(lambda p, spots: p.weights @ spots),
+            reference_model=combined_asset(lambda p, spots: weighted_by_decay(p.decay, spots)),
             note=(
                 "correlation 1 with equal volatilities and dividends: the basket is one geometric Brownian "
                 f"motion started at sum_i w_i S_i(0), the Black-Scholes {name} on it (unequal weights, decay 0.5)"
@@ -284,7 +299,7 @@ def _basket_reductions(european: type[Product], one_asset: type[Product]) -> tup
 
 def _basket_forward(p: _Basket, m: Model) -> float:
     """sum_i w_i S_i(0) exp(-q_i T): today's price of the basket delivered at T."""
-    return float(p.weights @ (m.initial() * np.exp(-m.dividend_yields() * p.maturity)))
+    return weighted_by_decay(p.decay, m.initial() * np.exp(-m.dividend_yields() * p.maturity))
 
 
 class BasketCall(_Basket):
@@ -319,8 +334,8 @@ class BasketPut(_Basket):
 
     Limits: one asset -> the European put; decay 0 -> the put on the first asset (on
     every path); assets moving as one -> the European put on one asset started at
-    sum_i w_i S_i(0). Increasing and convex in the strike (on every path); between the
-    discounted intrinsic value and the discounted strike.
+    sum_i w_i S_i(0). Increasing and convex in the strike (on every path); at most the
+    discounted strike.
     """
 
     reductions = _basket_reductions(EuropeanPut, AssetPut)
@@ -330,11 +345,6 @@ class BasketPut(_Basket):
         Bound(
             "below_discounted_strike", "<=", lambda p, m: p.strike * np.exp(-m.short_rate * p.maturity),
             source="the put pays at most K",
-        ),
-        Bound(
-            "above_intrinsic", ">=",
-            lambda p, m: max(p.strike * np.exp(-m.short_rate * p.maturity) - _basket_forward(p, m), 0.0),
-            source="max(K - E[B(T)], 0) exp(-rT) by Jensen's inequality",
         ),
     )
 
@@ -357,7 +367,7 @@ class _TwoAssets(Product):
         return np.array([self.maturity])
 
     def scenario(self) -> MultiBlackScholes:
-        return market(2)
+        return correlated_market(2)
 
 
 def _riskless_second(strike: Callable[[Product], float]) -> Reduction:
@@ -384,13 +394,7 @@ class ExchangeOption(_TwoAssets):
     """
 
     reductions = (
-        Reduction(
-            "margrabe_closed_form",
-            {},
-            becomes=lambda p: p,
-            exact=False,
-            note="no limit needed: the exchange option has Margrabe's closed form under correlated GBM",
-        ),
+        own_closed_form("margrabe_closed_form", note="Margrabe: the exchange option has a closed form under correlated GBM"),
         _riskless_second(lambda p: 0.0),
     )
     relations = (
@@ -404,7 +408,7 @@ class ExchangeOption(_TwoAssets):
     )
 
     def payoff(self, obs):
-        s = obs.s[:, -1, :]
+        s = at_expiry(obs)
         return np.maximum(s[:, 0] - s[:, 1], 0.0)
 
     def reference(self, model: Model) -> float:
@@ -447,7 +451,7 @@ class SpreadCall(_TwoAssets):
     )
 
     def payoff(self, obs):
-        s = obs.s[:, -1, :]
+        s = at_expiry(obs)
         return np.maximum(s[:, 0] - s[:, 1] - self.strike, 0.0)
 
 
@@ -456,15 +460,12 @@ class SpreadCall(_TwoAssets):
 
 
 def _best_plus_worst(p: _SeveralAssets):
+    """max(a - K, 0) + max(b - K, 0) is the same sum whichever of a, b is the larger."""
     if p.assets != 2:
         raise ParamError(f"best + worst = call 1 + call 2 holds for two assets; this product has assets={p.assets!r}")
     kw = dict(strike=p.strike, maturity=p.maturity, assets=2)
-    return [
-        (1.0, BestOfCall(**kw)),
-        (1.0, WorstOfCall(**kw)),
-        (-1.0, AssetCall(asset=0, **kw)),
-        (-1.0, AssetCall(asset=1, **kw)),
-    ]
+    other = WorstOfCall if isinstance(p, BestOfCall) else BestOfCall
+    return [(1.0, p), (1.0, other(**kw)), (-1.0, AssetCall(asset=0, **kw)), (-1.0, AssetCall(asset=1, **kw))]
 
 
 def _versus_asset_call(side: str, which: str) -> Bound:
@@ -506,14 +507,14 @@ class BestOfCall(_SeveralAssets):
         ),
     )
     relations = (
-        Identity("best_plus_worst", _best_plus_worst),
+        PathIdentity("best_plus_worst", _best_plus_worst),
         _versus_asset_call(">=", "first"),
         _versus_asset_call(">=", "last"),
         Monotone("strike", -1, to=lambda p: p.strike + 10.0, pathwise=True),
     )
 
     def payoff(self, obs):
-        return np.maximum(obs.s[:, -1, :].max(axis=1) - self.strike, 0.0)
+        return np.maximum(at_expiry(obs).max(axis=1) - self.strike, 0.0)
 
 
 class WorstOfCall(_SeveralAssets):
@@ -539,11 +540,11 @@ class WorstOfCall(_SeveralAssets):
         ),
     )
     relations = (
-        Identity("best_plus_worst", _best_plus_worst),
+        PathIdentity("best_plus_worst", _best_plus_worst),
         _versus_asset_call("<=", "first"),
         _versus_asset_call("<=", "last"),
         Monotone("strike", -1, to=lambda p: p.strike + 10.0, pathwise=True),
     )
 
     def payoff(self, obs):
-        return np.maximum(obs.s[:, -1, :].min(axis=1) - self.strike, 0.0)
+        return np.maximum(at_expiry(obs).min(axis=1) - self.strike, 0.0)
