@@ -395,17 +395,22 @@ class BrownianBridge:
         """Normalised increments ``out`` (paths, dates, k) from ``normals`` (paths, dates, k)
         whose axis 1 is in bridge order (position 0 sets the end point)."""
         n, m, k = normals.shape
+        zt = np.ascontiguousarray(normals.transpose(1, 0, 2))  # (positions, paths, k): rows contiguous
         w = np.empty((m, n, k))
+        tmp = np.empty((n, k))
         for p, (i, lo, hi, a, b, s) in enumerate(self.steps):
             wi = w[i]
-            np.multiply(normals[:, p, :], s, out=wi)
+            np.multiply(zt[p], s, out=wi)
             if hi >= 0:
-                wi += b * w[hi]
+                np.multiply(w[hi], b, out=tmp)
+                wi += tmp
             if lo >= 0:
-                wi += a * w[lo]
-        inc = np.diff(w, axis=0, prepend=0.0)
-        inc *= self.inv_sqrt_dt[:, None, None]
-        out[...] = inc.transpose(1, 0, 2)
+                np.multiply(w[lo], a, out=tmp)
+                wi += tmp
+        ot = out.transpose(1, 0, 2)
+        np.subtract(w[1:], w[:-1], out=ot[1:])
+        ot[0] = w[0]
+        ot *= self.inv_sqrt_dt[:, None, None]
 
 
 _ENGINES: dict[tuple, list] = {}
@@ -494,8 +499,8 @@ class SobolBridge(Sampler):
             u[r * c : (r + 1) * c] = entry[0].random(c)
             entry[1] += c
         u += _HALF_CELL  # cell midpoints: strictly inside (0, 1), so the inverse stays finite
-        normals = ndtri(u).reshape(n, m, k)
-        self.bridge.increments(normals, z)
+        ndtri(u, out=u)
+        self.bridge.increments(u.reshape(n, m, k), z)
 
     def summarise(self, x: np.ndarray, block: int) -> Any:
         r_count = self.scrambles

@@ -290,23 +290,44 @@ class _Inline:
 
 
 class _Forked:
+    """A pool of forked workers (they inherit ``_RUN``: the checks, their products and cases).
+    A worker that dies (killed, out of memory) breaks the pool: the run stops with an error
+    instead of waiting for the lost task."""
+
     def __init__(self, workers: int) -> None:
-        ctx = multiprocessing.get_context("fork")
+        from concurrent.futures import ProcessPoolExecutor
+
         self.workers = workers
-        self.pool = ctx.Pool(workers)
+        self.pool = ProcessPoolExecutor(max_workers=workers, mp_context=multiprocessing.get_context("fork"),
+                                        initializer=_mark_worker)
 
     def map(self, fn: Callable, tasks: list) -> list:
-        return self.pool.map(fn, tasks, chunksize=1)
+        from concurrent.futures.process import BrokenProcessPool
+
+        try:
+            return list(self.pool.map(fn, tasks))
+        except BrokenProcessPool as exc:
+            raise RuntimeError(
+                f"a worker process died during the run ({exc}); re-run with workers=1 (--workers 1) "
+                "to see the error in this process"
+            ) from exc
 
     def close(self) -> None:
-        self.pool.terminate()
-        self.pool.join()
+        self.pool.shutdown(wait=True, cancel_futures=True)
+
+
+_IN_WORKER = False
+
+
+def _mark_worker() -> None:
+    global _IN_WORKER
+    _IN_WORKER = True
 
 
 def _executor(workers: int, tasks_hint: int) -> _Inline | _Forked:
     if workers <= 1 or tasks_hint <= 1:
         return _Inline()
-    if multiprocessing.current_process().daemon:  # inside a pool worker: no pools of pools
+    if _IN_WORKER or multiprocessing.current_process().daemon:  # inside a worker: no pools of pools
         return _Inline()
     if "fork" not in multiprocessing.get_all_start_methods():
         warnings.warn(
@@ -316,7 +337,12 @@ def _executor(workers: int, tasks_hint: int) -> _Inline | _Forked:
             stacklevel=3,
         )
         return _Inline()
-    return _Forked(workers)
+    try:
+        return _Forked(workers)
+    except OSError as exc:  # pragma: no cover - resource limits
+        warnings.warn(f"workers={workers}: cannot start worker processes ({exc}); running in one process",
+                      RuntimeWarning, stacklevel=3)
+        return _Inline()
 
 
 def _split(first: int, last: int, per_task: int) -> list[tuple[int, int]]:
@@ -336,6 +362,7 @@ def _execute(
     workers: int,
     progress: Callable[[int, int], None] | None,
     family: int | None = None,
+    info: dict | None = None,
 ) -> list[Outcome]:
     """Outcomes (before Holm) of ``checks``, computed in rounds on an executor.
 
@@ -373,6 +400,8 @@ def _execute(
     run_id = id(run)
     _RUN[run_id] = run
     ex = _executor(workers, len(live))
+    if info is not None:
+        info["processes"] = ex.workers
     try:
         for i, setup, err in ex.map(_task_setup, [(run_id, it.index) for it in live]):
             item = run.items[i]
@@ -592,9 +621,11 @@ def run_checks(
     """
     _validate(paths, seed, alpha, method, max_paths, workers)
     prec = parse_precision(precision) if precision is not None else None
+    info: dict = {}
     outcomes = _execute(checks, paths=paths, seed=seed, alpha=alpha, regression_paths=regression_paths,
-                        method=method, precision=prec, max_paths=max_paths, workers=workers, progress=progress)
-    extra: dict = {"method": method}
+                        method=method, precision=prec, max_paths=max_paths, workers=workers, progress=progress,
+                        info=info)
+    extra: dict = {"method": method, "processes": info.get("processes", 1)}
     if prec is not None:
         extra.update(precision=str(prec), max_paths=int(max_paths))
     return RunResult(finalise(outcomes, alpha), paths=paths, seed=seed, alpha=alpha, extra=extra)

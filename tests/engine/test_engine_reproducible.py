@@ -84,6 +84,7 @@ def test_workers_do_not_change_numbers(method):
     checks = _mixed_checks()
     one = run_checks(checks, paths=3 * BLOCK, seed=11, method=method, workers=1, regression_paths=8192)
     two = run_checks(checks, paths=3 * BLOCK, seed=11, method=method, workers=2, regression_paths=8192)
+    assert one.extra["processes"] == 1 and two.extra["processes"] == 2  # really forked
     assert [o.to_dict() for o in one.outcomes] == [o.to_dict() for o in two.outcomes]
     assert all(o.verdict != "error" for o in one.outcomes), [o.message for o in one.outcomes]
 
@@ -124,6 +125,7 @@ def test_products_from_user_files_work_in_workers(tmp_path):
     checks = [c for p in products for c in checks_for(p)] + [call_check()]
     one = run_checks(checks, paths=2 * BLOCK, seed=1, method="auto", workers=1)
     two = run_checks(checks, paths=2 * BLOCK, seed=1, method="auto", workers=2)
+    assert two.extra["processes"] == 2
     assert [o.to_dict() for o in one.outcomes] == [o.to_dict() for o in two.outcomes]
     assert one.outcomes[0].product == "CappedCall" and one.outcomes[0].verdict == "pass"
 
@@ -135,3 +137,16 @@ def test_different_seeds_and_cases_differ():
     c = evaluate([EuropeanCall()], MODEL, paths=BLOCK, seed=1, method="antithetic", key=4).estimate([1.0])
     d = evaluate([EuropeanCall()], MODEL, paths=BLOCK, seed=1, method="antithetic", key=5).estimate([1.0])
     assert c.value != d.value
+
+
+def test_no_pools_inside_workers():
+    """A check run inside a worker (a product whose reference runs checks of its own, the
+    mutation command's workers) runs in that process instead of forking again."""
+    from limitcase import suite
+
+    suite._mark_worker()
+    try:
+        r = run_checks([call_check(), call_check(case="twin")], paths=BLOCK, seed=1, workers=2)
+        assert r.extra["processes"] == 1
+    finally:
+        suite._IN_WORKER = False
