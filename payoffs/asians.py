@@ -13,6 +13,11 @@ The geometric options have exact closed forms (``ln G`` and ``ln S(T)`` are join
 normal). The arithmetic ones are tied to them path by path by ``A >= G`` (the inequality
 of arithmetic and geometric means), to the average-price forward by put-call parity, and
 are monotone and convex in the strike.
+
+Where the checks look. The closed forms are checked 10 out of the money (the default
+strike equals the scenario's spot, and a strike confused with the spot would pass there);
+the identities and the one-fixing limits on the window ``(T/2, T]``, so that the window's
+start matters to some check.
 """
 
 from __future__ import annotations

@@ -20,8 +20,9 @@ Gatto 1979 for the floating strike; Conze and Viswanathan 1991 for the fixed str
 one observation at T the extreme is ``max(S0, S(T))`` or ``min(S0, S(T))``: the floating
 options become the at-the-money forward-start option started today, the fixed ones the
 European option (when the strike is on the right side of S0), path by path. Path by path
-too: continuous monitoring and more (nested) dates only widen the extreme, and the fixed
-call pays at least the European call.
+too: continuous monitoring and more (nested) dates only widen the extreme, the fixed call
+pays at least the European call, and every lookback pays at least the geometric Asian
+option of the same kind on the same dates (the extreme lies beyond the geometric mean).
 """
 
 from __future__ import annotations
@@ -116,8 +117,8 @@ class FloatingLookbackCall(_Lookback):
 
     Limits: continuous -> the closed form (with any number of dates); one observation ->
     max(S(T) - S0, 0), the at-the-money forward-start call started today (path by path).
-    Relations: at least that call (path by path); continuous and more dates never lower
-    (path by path).
+    Relations: at least that call and the geometric floating Asian call on the same dates
+    (path by path); continuous and more dates never lower (path by path).
     """
 
     reductions = (
@@ -160,8 +161,8 @@ class FloatingLookbackPut(_Lookback):
 
     Limits: continuous -> the closed form; one observation -> max(S0 - S(T), 0), the
     at-the-money forward-start put started today (path by path).
-    Relations: at least that put (path by path); continuous and more dates never lower
-    (path by path).
+    Relations: at least that put and the geometric floating Asian put on the same dates
+    (path by path); continuous and more dates never lower (path by path).
     """
 
     reductions = (
@@ -204,8 +205,9 @@ class FixedLookbackCall(_Lookback):
 
     Limits: continuous -> the closed form; one observation with K >= S0 -> the European
     call (max(S0, S(T)) > K only where S(T) > K; the case pins S0 and raises K to it).
-    Relations: at least the European call (path by path, M >= S(T)); decreasing and convex
-    in the strike (path by path); continuous and more dates never lower (path by path).
+    Relations: at least the European call (M >= S(T)) and the geometric Asian call on the
+    same dates (M >= G), path by path; decreasing and convex in the strike (path by path);
+    continuous and more dates never lower (path by path).
     """
 
     strike = Param(110.0, low=0.0, doc="strike (default out of the money: above S0)")
@@ -253,8 +255,9 @@ class FixedLookbackPut(_Lookback):
 
     Limits: continuous -> the closed form; one observation with K <= S0 -> the European
     put (the case pins S0 and lowers K to it).
-    Relations: at least the European put (path by path, m <= S(T)); increasing and convex
-    in the strike (path by path); continuous and more dates never lower (path by path).
+    Relations: at least the European put (m <= S(T)) and the geometric Asian put on the
+    same dates (m <= G), path by path; increasing and convex in the strike (path by path);
+    continuous and more dates never lower (path by path).
     """
 
     strike = Param(90.0, low=0.0, doc="strike (default out of the money: below S0)")
