@@ -347,21 +347,46 @@ def run_sweep(
         return Sweep(empty, (), (), check, run_model, False, error=f"{type(exc).__name__}: {exc}")
     try:
         legs = [product.replace(**values) for values in plan.points]
-        key = case_key(plan.product, plan.case)
-        shared = len(grid_of(legs)) <= MAX_SHARED_GRID
-        if shared:
-            joint = evaluate(legs, run_model, paths=paths, seed=seed, key=key,
-                             regression_paths=regression_paths, on_batch=on_batch)
-            estimates = tuple(joint.estimate(_unit(len(legs), i)) for i in range(len(legs)))
-        else:
-            estimates = tuple(
-                evaluate([leg], run_model, paths=paths, seed=seed, key=key,
-                         regression_paths=regression_paths, on_batch=on_batch).estimate([1.0])
-                for leg in legs
-            )
     except LimitcaseError as exc:
         return Sweep(plan, (), (), check, run_model, False, error=str(exc))
+    key = case_key(plan.product, plan.case)
+
+    def alone(leg: Product) -> Estimate:
+        return evaluate([leg], run_model, paths=paths, seed=seed, key=key,
+                        regression_paths=regression_paths, on_batch=on_batch).estimate([1.0])
+
+    shared = len(grid_of(legs)) <= MAX_SHARED_GRID
+    try:
+        if not shared:
+            raise _PriceApart
+        joint = evaluate(legs, run_model, paths=paths, seed=seed, key=key,
+                         regression_paths=regression_paths, on_batch=on_batch)
+        estimates = tuple(joint.estimate(_unit(len(legs), i)) for i in range(len(legs)))
+    except (_PriceApart, LimitcaseError):
+        # price the points one by one and keep those the model can price (a point may need
+        # another model, e.g. a basket of 3 assets under the 1-asset model of its limit)
+        shared = False
+        kept_points, kept_legs, kept_est = [], [], []
+        problems: list[tuple[dict[str, Any], str]] = []
+        for values, leg in zip(plan.points, legs):
+            try:
+                kept_est.append(alone(leg))
+                kept_points.append(values)
+                kept_legs.append(leg)
+            except LimitcaseError as exc:
+                problems.append((values, str(exc)))
+        if len(kept_est) < 2:
+            why = problems[0][1] if problems else "fewer than two points could be priced"
+            return Sweep(plan, (), (), check, run_model, False,
+                         error=f"the points before the limit cannot be priced under the case's model ({why})")
+        plan = SweepPlan(plan.product, plan.case, plan.param, tuple(kept_points), plan.anchor,
+                         plan.skipped + tuple(f"{v}: {m}" for v, m in problems))
+        legs, estimates = kept_legs, tuple(kept_est)
     return Sweep(plan, tuple(legs), estimates, check, run_model, shared)
+
+
+class _PriceApart(Exception):
+    """Internal: the sweep's union date grid is too large to price its points together."""
 
 
 def _unit(n: int, i: int) -> tuple[float, ...]:

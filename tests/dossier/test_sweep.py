@@ -196,3 +196,25 @@ def test_step_sweep_only_for_a_discretised_model():
     st = step_sweep(Call(), heston, paths=1024, seed=1, levels=3)
     assert st.error is None and st.values == (4, 8, 16)
     assert all(e.stderr > 0 for e in st.estimates)
+
+
+def test_points_the_model_cannot_price_are_dropped_not_fatal():
+    class PickyKnockOut(KnockOut):
+        def payoff(self, obs):
+            if self.barrier < 130.0:
+                raise ValueError("barrier below 130 not supported")
+            return super().payoff(obs)
+
+    sw = run_sweep(PickyKnockOut(), PickyKnockOut.reductions[0], BlackScholes(), paths=1024, seed=3)
+    assert sw.error is None and not sw.shared_paths
+    assert sw.plan.values[0] == 140.0 and sw.plan.values[-1] == math.inf
+    assert any("below 130" in s for s in sw.plan.skipped)
+
+    class Hopeless(KnockOut):
+        def payoff(self, obs):
+            if math.isfinite(self.barrier):
+                raise ValueError("only the limit works")
+            return super().payoff(obs)
+
+    sw = run_sweep(Hopeless(), Hopeless.reductions[0], BlackScholes(), paths=1024, seed=3)
+    assert sw.error is not None and "cannot be priced" in sw.error and not sw.estimates

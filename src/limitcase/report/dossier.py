@@ -448,10 +448,12 @@ def _check_table(o: Outcome) -> str:
     ]
     if o.pathwise_ok is not None:
         items.append(("path by path", "identical on every path" if o.pathwise_ok else "BROKEN"))
+    message = o.message
     if o.allowance:
         items.append(("declared allowance", f"{_num(o.allowance, 4)}: {o.allowance_reason}"))
-    if o.message:
-        items.append(("message", o.message))
+        message = "; ".join(m for m in message.split("; ") if not m.startswith("allowance "))
+    if message:
+        items.append(("message", message))
     rows = "".join(f"<tr><th>{_e(k)}</th><td>{_e(v)}</td></tr>" for k, v in items)
     return f"<table>{rows}</table>"
 
@@ -549,7 +551,7 @@ def _product_html(d: Dossier, page: ProductPage) -> str:
         if sec.png:
             b.append(_img(sec.png, f"sweep of {sec.reduction.name}"))
         elif sec.sweep is not None and sec.sweep.error:
-            b.append(f'<p class="note">{_badge("error")} sweep: {_e(sec.sweep.error)}</p>')
+            b.append(f'<p class="muted">No sweep picture: {_e(sec.sweep.error)}.</p>')
         elif sec.sweep is not None and sec.sweep.info:
             b.append(f'<p class="muted">No sweep: {_e(sec.sweep.info)}.</p>')
         if sec.sweep is not None and sec.sweep.estimates:
@@ -705,7 +707,7 @@ def _product_md(d: Dossier, page: ProductPage, images: dict[str, str]) -> str:
         if key in images:
             m += [f"![sweep of {sec.reduction.name}]({images[key]})", ""]
         elif sec.sweep is not None and sec.sweep.error:
-            m += [f"Sweep error: {sec.sweep.error}", ""]
+            m += [f"_No sweep picture: {sec.sweep.error}._", ""]
         elif sec.sweep is not None and sec.sweep.info:
             m += [f"_No sweep: {sec.sweep.info}._", ""]
         if sec.sweep is not None and sec.sweep.estimates:
