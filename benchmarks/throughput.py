@@ -5,8 +5,11 @@ process): path-steps per second, a path-step being one simulated date of one pat
 included (streams, normals, the exact GBM step, the payoff, discounting, checks on the
 cash flows, running moments). Against it: numpy's ``Generator.standard_normal`` filling a
 block of the same shape, the floor any engine drawing one normal per path-step stands on.
-Measurements alternate, several times; the ratio is the median of adjacent pairs (a busy
-machine slows both alike).
+Measurements alternate, several times, in CPU time of this process (a busy machine
+steals less of it than of the wall clock); the ratio is the median of adjacent pairs.
+A breakdown follows: the shares of one engine path-step spent drawing normals, in the
+model's exact GBM step (``models/gbm.py``: scale, drift, ``cumsum`` over dates, ``exp``),
+and in everything else (streams, payoff, discounting, cash-flow checks, moments).
 
 Usage: python benchmarks/throughput.py [--paths N] [--repeat R]
 Prints ``name: value`` lines; the last is ``ratio: X`` (target >= 0.7).
@@ -17,18 +20,25 @@ from __future__ import annotations
 import argparse
 import os
 import sys
+import time
 
 import numpy as np
 
 sys.path.insert(0, os.path.dirname(__file__))
 
-from _common import load_text, median, timed  # noqa: E402
+from _common import load_text, median  # noqa: E402
 
 from limitcase import BLOCK, BlackScholes, price  # noqa: E402
 from limitcase.engine import block_generator, coerce_seed  # noqa: E402
 from limitcase_payoffs.asians import ArithmeticAsianCall  # noqa: E402
 
 DATES = 52
+
+
+def cpu(fn) -> float:
+    t0 = time.process_time()
+    fn()
+    return time.process_time() - t0
 
 
 def raw(blocks: int) -> float:
@@ -41,11 +51,27 @@ def raw(blocks: int) -> float:
         for b in range(blocks):
             block_generator(seed, 0, 1, b).standard_normal(out=buf)
 
-    return timed(run)[0]
+    return cpu(run)
 
 
 def engine(blocks: int, product, model) -> float:
-    return timed(lambda: price(product, model, paths=blocks * BLOCK, seed=1, method="plain"))[0]
+    return cpu(lambda: price(product, model, paths=blocks * BLOCK, seed=1, method="plain"))
+
+
+def model_step(blocks: int, model) -> float:
+    """CPU seconds of the model's simulate alone on the same number of blocks."""
+    grid = np.arange(1, DATES + 1) / DATES
+    g = np.random.default_rng(0)
+    src = g.standard_normal((BLOCK, DATES, 1))
+    buf = np.empty_like(src)
+    copy = cpu(lambda: [np.copyto(buf, src) for _ in range(blocks)])
+
+    def run() -> None:
+        for _ in range(blocks):
+            np.copyto(buf, src)
+            model.simulate(grid, buf, g)
+
+    return cpu(run) - copy
 
 
 def main() -> None:
@@ -57,7 +83,7 @@ def main() -> None:
     steps = blocks * BLOCK * DATES
     product, model = ArithmeticAsianCall(fixings=DATES), BlackScholes()
     engine(2, product, model), raw(2)  # warm up
-    ratios, e_rates, r_rates = [], [], []
+    ratios, e_rates, r_rates, shares = [], [], [], []
     for i in range(args.repeat):
         if i % 2:
             te, tr = engine(blocks, product, model), raw(blocks)
@@ -66,9 +92,15 @@ def main() -> None:
         e_rates.append(steps / te)
         r_rates.append(steps / tr)
         ratios.append(tr / te)
+        shares.append(model_step(blocks, model) / te)
+    ratio = median(ratios)
+    model_share = median(shares)
     print(f"engine_path_steps_per_second: {median(e_rates):.4g}")
     print(f"raw_normals_per_second: {median(r_rates):.4g}")
     print(f"best_ratio: {max(ratios):.3f}")
+    print(f"share_normals: {ratio:.3f}")
+    print(f"share_model_step: {model_share:.3f}")
+    print(f"share_engine_and_payoff: {1 - ratio - model_share:.3f}")
     print(f"paths: {blocks * BLOCK}")
     print(f"repeats: {args.repeat}")
     print(f"load: {load_text()}")
