@@ -126,3 +126,28 @@ def test_bad_input_exits_two(tmp_path, args, match):
     r = CliRunner().invoke(main, ["report", *args, "-o", str(tmp_path)])
     assert r.exit_code == 2
     assert match in r.output
+
+
+def test_products_that_cannot_be_built_or_stated_are_errors_and_the_rest_goes_on(tmp_path):
+    src = tmp_path / "awkward.py"
+    src.write_text(
+        "import numpy as np\n"
+        "from limitcase import Param, Product\n"
+        "class NoDefaults(Product):\n"
+        "    strike = Param(100.0, low=0.0)\n"
+        "    def _check(self):\n"
+        "        raise ValueError('no value of strike works')\n"
+        "    def dates(self):\n        return np.array([1.0])\n"
+        "class FormulaRaises(Product):\n"
+        "    strike = Param(100.0, low=0.0)\n"
+        "    def dates(self):\n        return np.array([1.0])\n"
+        "    def payoff(self, obs):\n        return np.maximum(obs.s[:, -1] - self.strike, 0.0)\n"
+        "    def formula(self):\n        raise RuntimeError('half-written formula')\n"
+    )
+    out = tmp_path / "d"
+    r = CliRunner().invoke(main, ["report", str(src), "-o", str(out), "--paths", "2048", "--no-audits"])
+    assert r.exit_code == 1, r.output
+    assert "ERROR NoDefaults: NoDefaults cannot be built at its defaults" in r.output
+    assert "ERROR FormulaRaises: FormulaRaises.formula() raised RuntimeError: half-written formula" in r.output
+    assert "no value of strike works" in (out / "index.html").read_text()
+    assert (out / "FormulaRaises.html").is_file() and (out / "img" / "FormulaRaises-convergence.png").is_file()

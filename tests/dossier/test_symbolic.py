@@ -144,3 +144,41 @@ def test_formula_symbols_follow_the_dates():
     x = formula_symbols(P["AsianWithFormula"](fixings=5))
     assert [s.name for s in x.S] == [f"S_{j}" for j in range(1, 6)]
     assert x.S_T.name == "S_5" and x.S_0.name == "S_0" and x.strike.name == "strike"
+
+
+def test_multi_asset_formula_uses_asset_and_date_symbols():
+    from limitcase.models import MultiBlackScholes
+
+    class Exchange(Product):
+        """Pays max(S1(T) - S2(T), 0) (Margrabe's exchange option)."""
+
+        multi_asset = True
+        n_assets = 2
+        maturity = Param(1.0, low=0.0, low_open=True)
+
+        def dates(self):
+            return np.array([0.5, self.maturity])
+
+        def payoff(self, obs):
+            return np.maximum(obs.s[:, -1, 0] - obs.s[:, -1, 1], 0.0)
+
+        def scenario(self):
+            return MultiBlackScholes(spots=(100.0, 95.0), vols=(0.2, 0.3), correlation=0.4)
+
+        def formula(self):
+            x = formula_symbols(self)
+            s1, s2 = x.S_T
+            return sp.Max(s1 - s2, 0)
+
+    x = formula_symbols(Exchange())
+    assert [[s.name for s in row] for row in x.S] == [["S1_1", "S2_1"], ["S1_2", "S2_2"]]
+    assert [s.name for s in x.S_0] == ["S1_0", "S2_0"]
+    r = cross_check(Exchange(), paths=500)
+    assert r.status == "agree", r.message
+    assert r.edge_paths > 0  # paths where S1(T) = S2(T) exactly
+
+    class Swapped(Exchange):
+        def payoff(self, obs):
+            return np.maximum(obs.s[:, -1, 1] - obs.s[:, -1, 0], 0.0)
+
+    assert cross_check(Swapped(), paths=500).status == "disagree"

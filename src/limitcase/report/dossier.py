@@ -582,6 +582,9 @@ def _product_html(d: Dossier, page: ProductPage) -> str:
         b.append(f'<p class="note">The product at its defaults, paths doubling up to {conv.paths[-1]:,} '
                  f"(nested runs). The standard error falls with slope {_num(slope, 3)} on log-log axes; "
                  "Monte Carlo gives -1/2.</p>")
+    elif page.convergence is not None and page.convergence.error is None:
+        b.append('<p class="muted">Too few paths for a convergence picture: it needs at least 2048 '
+                 "(two nested runs from 1024 paths up).</p>")
     if page.steps_png:
         b.append(_img(page.steps_png, "convergence in the time step"))
     elif page.steps is None:
