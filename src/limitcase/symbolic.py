@@ -68,6 +68,8 @@ __all__ = [
 
 RTOL = 1e-9
 ATOL = 1e-9
+MOST_SOLVED = 24
+"""Kinks not linear in a price whose roots are asked of ``sympy.solve`` (it can be slow)."""
 
 
 class FormulaSymbols:
@@ -257,28 +259,33 @@ def _edge_paths(
     flat = base.reshape(base.shape[0], -1)
     seeds = flat[:per_kink]
     index = {s: i for i, s in enumerate(symbols)}
-    triples = []  # (kink g, price x it is linear in, dg/dx)
+    roots = []  # (kink g, price x, an expression of the other prices putting x on the kink)
+    solved = 0
     for g in _kinks(expr):
         for x in sorted(g.free_symbols & set(symbols), key=lambda s: index[s]):
             d = sp.diff(g, x)
             if x not in d.free_symbols:
-                triples.append((g, x, d))
-        if len(triples) * seeds.shape[0] >= most:
+                roots.append((g, x, x - g / d))  # linear in x: one Newton step is exact
+            elif solved < MOST_SOLVED:
+                solved += 1  # not linear (a geometric average): ask sympy for the roots
+                try:
+                    found = sp.solve(g, x)
+                except (NotImplementedError, ValueError, TypeError):
+                    found = []
+                roots.extend((g, x, r) for r in found if x not in r.free_symbols)
+        if len(roots) * seeds.shape[0] >= most:
             break
-    if triples:
-        # one lambdify for every kink and its slope: generating code per kink costs far more
-        f = sp.lambdify(symbols, [t[0] for t in triples] + [t[2] for t in triples], modules="numpy")
+    if roots:
+        # one lambdify for every kink: generating code per kink costs far more
+        f = sp.lambdify(symbols, [r for _, _, r in roots], modules="numpy")
         cols = [seeds[:, i] for i in range(seeds.shape[1])]
         with np.errstate(all="ignore"):
-            vals = [np.broadcast_to(np.asarray(v, dtype=float), (seeds.shape[0],)) for v in f(*cols)]
-        k = len(triples)
-        for (g, x, _), gv, av in zip(triples, vals[:k], vals[k:]):
-            with np.errstate(all="ignore"):
-                root = seeds[:, index[x]] - gv / av
+            values = [np.broadcast_to(np.asarray(v, dtype=complex), (seeds.shape[0],)) for v in f(*cols)]
+        for (g, x, _), root in zip(roots, values):
             for r, row in zip(root, seeds):
-                if math.isfinite(r) and r > 0.0:
+                if abs(r.imag) <= 1e-12 * (1.0 + abs(r.real)) and math.isfinite(r.real) and r.real > 0.0:
                     moved = row.copy()
-                    moved[index[x]] = r
+                    moved[index[x]] = r.real
                     rows.append(moved)
                     kinds.append(f"{x} at the kink {sp.sstr(g)} = 0")
     levels = sorted({float(v) for v in product.params().values() if isinstance(v, (int, float))

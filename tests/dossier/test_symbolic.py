@@ -182,3 +182,19 @@ def test_multi_asset_formula_uses_asset_and_date_symbols():
             return np.maximum(obs.s[:, -1, 1] - obs.s[:, -1, 0], 0.0)
 
     assert cross_check(Swapped(), paths=500).status == "disagree"
+
+
+def test_nonlinear_kink_of_a_geometric_average_is_solved_for_edge_paths():
+    from limitcase_payoffs.asians import GeometricAsianCall
+
+    class Geometric(GeometricAsianCall):
+        def formula(self):
+            x = formula_symbols(self)
+            return sp.Max(sp.Mul(*x.S) ** sp.Rational(1, len(x.S)) - x.strike, 0)
+
+    r = cross_check(Geometric(fixings=4), paths=300, per_kink=3)
+    assert r.status == "agree", r.message
+    # G = K is not linear in any S_j: sympy.solve gives S_j = K^4 / (product of the others),
+    # one family of 3 paths per fixing, beside the flat paths at each positive parameter
+    flat = sum(1 for v in Geometric(fixings=4).params().values() if isinstance(v, (int, float)) and v > 0)
+    assert r.edge_paths == 4 * 3 + flat
