@@ -41,10 +41,10 @@ LS_SHORTFALL_PER_STRIKE = 0.025 / 40.0
 
 Longstaff and Schwartz (2001), "Valuing American options by simulation: a simple
 least-squares approach", Review of Financial Studies 14(1), Table 1 (values from memory,
-listed in the project's reference-values notes): over its ten American puts (K = 40,
-S = 36..44, sigma = 0.2 or 0.4, T = 1 or 2, r = 0.06), their estimator with 50 exercise
-dates a year lies at most 0.025 below the finite-difference American price (S = 44,
-sigma = 0.4, T = 2: 5.622 against 5.647). That gap holds both the policy's suboptimality
+the ten American puts listed in the project's reference-values notes: K = 40, S = 36..44,
+sigma = 0.2 or 0.4, T = 1 or 2, r = 0.06): their estimator with 50 exercise dates a year
+lies at most 0.025 below the finite-difference American price (S = 44, sigma = 0.4, T = 2:
+5.622 against 5.647). That gap holds both the policy's suboptimality
 and exercising on 50 dates a year only. Put prices, and this estimator (whose regression
 state is S/S0), are homogeneous of degree one in (S0, K), so the gap scales with the
 strike: 0.025 K / 40."""
@@ -111,10 +111,10 @@ CALL_STRIKE = Param(90.0, low=0.0, doc="strike (default in the money, S0/K = 1.1
 
 
 class _EarlyExercise(Product):
-    """Shared terms: exercise on every observation date, strike and last date."""
+    """Shared terms: exercise on every observation date up to the last; subclasses declare
+    the strike (:data:`PUT_STRIKE` or :data:`CALL_STRIKE`)."""
 
     abstract = True
-    strike = Param(100.0, low=0.0, doc="strike")
     maturity = Param(1.0, low=0.0, low_open=True, doc="last exercise date in years")
 
     def exercise_dates(self) -> np.ndarray:
