@@ -151,3 +151,23 @@ def test_products_that_cannot_be_built_or_stated_are_errors_and_the_rest_goes_on
     assert "ERROR FormulaRaises: FormulaRaises.formula() raised RuntimeError: half-written formula" in r.output
     assert "no value of strike works" in (out / "index.html").read_text()
     assert (out / "FormulaRaises.html").is_file() and (out / "img" / "FormulaRaises-convergence.png").is_file()
+
+
+def test_a_discretised_scenario_gets_a_time_step_picture(tmp_path):
+    pytest.importorskip("limitcase.models.heston")
+    src = tmp_path / "on_heston.py"
+    src.write_text(
+        "import numpy as np\n"
+        "from limitcase import Param, Product\n"
+        "from limitcase.models.heston import Heston\n"
+        "class CallOnHeston(Product):\n"
+        "    strike = Param(100.0, low=0.0)\n"
+        "    def dates(self):\n        return np.array([0.5, 1.0])\n"
+        "    def payoff(self, obs):\n        return np.maximum(obs.s[:, -1] - self.strike, 0.0)\n"
+        "    def scenario(self):\n        return Heston()\n"
+    )
+    out = tmp_path / "d"
+    r = CliRunner().invoke(main, ["report", str(src), "-o", str(out), "--paths", "2048", "--no-audits"])
+    page = (out / "CallOnHeston.html").read_text()
+    assert 'alt="convergence in the time step"' in page, r.output
+    assert (out / "img" / "CallOnHeston-steps.png").read_bytes()[:8] == PNG

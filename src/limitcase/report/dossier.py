@@ -586,7 +586,12 @@ def _product_html(d: Dossier, page: ProductPage) -> str:
         b.append('<p class="muted">Too few paths for a convergence picture: it needs at least 2048 '
                  "(two nested runs from 1024 paths up).</p>")
     if page.steps_png:
+        st = page.steps
+        assert st is not None
         b.append(_img(page.steps_png, "convergence in the time step"))
+        b.append(f'<p class="note">The scenario model is discretised: the product at its defaults with the '
+                 f"model's {_e(st.param)} at {', '.join(str(v) for v in st.values)} (finer to the right), each "
+                 "on its own paths; the estimates settle as the step is refined.</p>")
     elif page.steps is None:
         b.append('<p class="muted">The scenario model is simulated exactly on the product\'s dates '
                  "(no time step to refine).</p>")
