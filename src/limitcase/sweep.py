@@ -55,7 +55,7 @@ from .errors import LimitcaseError, ParamError
 from .models.base import Model
 from .params import Param
 from .product import Product
-from .reduce import Check, Reduction, limit_product, reduction_check
+from .reduce import Check, Reduction, reduction_check
 
 __all__ = [
     "LEVEL_RATIO",

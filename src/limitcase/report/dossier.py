@@ -28,7 +28,7 @@ from pathlib import Path
 from typing import Any, Callable, Sequence
 
 from ..engine import DEFAULT_REGRESSION_PATHS
-from ..errors import InputError, LimitcaseError
+from ..errors import InputError
 from ..product import Product
 from ..reduce import Check, Reduction, checks_for
 from ..suite import RunResult, run_checks
