@@ -84,6 +84,17 @@ def _out_of_reach(p: "_Barrier") -> float:
     return math.inf if p.up else 0.0
 
 
+def _live_side(p: "_Barrier") -> float:
+    """A strike 10 from the spot on the side the barrier does not knock, so that a check at
+    a barrier on the spot also tells the strike and the spot apart."""
+    return SPOT - 10.0 if p.up else SPOT + 10.0
+
+
+def _near_spot(p: "_Barrier") -> float:
+    """A barrier 1 from the spot: most paths touch it, many on the first dates."""
+    return SPOT + 1.0 if p.up else SPOT - 1.0
+
+
 def _further(p: "_Barrier") -> float:
     return p.barrier + 10.0 if p.up else p.barrier - 10.0
 
@@ -106,8 +117,8 @@ def _sibling(p: "_Barrier", *, out: bool | None = None, continuous: bool | None 
     return cls(**values)
 
 
-def _with_rebate_at_expiry(p: "_Barrier") -> "_Barrier":
-    return p.replace(rebate=REBATE, **({"rebate_at_hit": 0} if p.out else {}))
+def _near_with_rebate_at_expiry(p: "_Barrier") -> "_Barrier":
+    return p.replace(barrier=_near_spot(p), rebate=REBATE, **({"rebate_at_hit": 0} if p.out else {}))
 
 
 def _hit_timing(p: "_Barrier", model) -> float:
@@ -140,13 +151,13 @@ class MovingAway(Relation):
 
 _AWAY_OUT = Reduction(
     "barrier_out_of_reach",
-    {"barrier": _out_of_reach, "rebate": REBATE},
+    {"barrier": _out_of_reach, "strike": 90.0, "rebate": REBATE},
     becomes=_vanilla,
-    note="H at inf (up) or 0 (down) is never touched: the vanilla, the rebate never paid",
+    note="H at inf (up) or 0 (down) is never touched: the vanilla (here struck at 90), the rebate never paid",
 )
 _AWAY_IN = Reduction(
     "barrier_out_of_reach",
-    {"barrier": _out_of_reach, "rebate": REBATE},
+    {"barrier": _out_of_reach, "strike": 90.0, "rebate": REBATE},
     becomes=_rebate_at_expiry,
     allowance=lambda p, m: ROUNDING * p.rebate,
     reason=ROUNDING_REASON,
@@ -154,23 +165,25 @@ _AWAY_IN = Reduction(
 )
 _TOUCHED_TODAY_OUT = Reduction(
     "touched_today",
-    {"barrier": SPOT, "rebate": REBATE, "rebate_at_hit": 0},
+    {"barrier": SPOT, "strike": _live_side, "rebate": REBATE, "rebate_at_hit": 0},
     model_changes={"spot": SPOT},
     becomes=_rebate_at_expiry,
     allowance=lambda p, m: ROUNDING * p.rebate,
     reason=ROUNDING_REASON,
-    note="H at the spot is touched today: knocked out at once, the rebate (here paid at T)",
+    note="H at the spot is touched today: knocked out at once, the rebate (here paid at T); "
+    "the strike 10 on the live side",
 )
 _TOUCHED_TODAY_IN = Reduction(
     "touched_today",
-    {"barrier": SPOT, "rebate": REBATE},
+    {"barrier": SPOT, "strike": _live_side, "rebate": REBATE},
     model_changes={"spot": SPOT},
     becomes=_vanilla,
-    note="H at the spot is touched today: knocked in at once, the vanilla (no rebate)",
+    note="H at the spot is touched today: knocked in at once, the vanilla (no rebate), struck 10 "
+    "on the live side of the barrier",
 )
 _TOUCHED_TODAY_PAID_NOW = Reduction(
     "touched_today_rebate_paid_now",
-    {"barrier": SPOT, "rebate": REBATE, "rebate_at_hit": 1},
+    {"barrier": SPOT, "strike": _live_side, "rebate": REBATE, "rebate_at_hit": 1},
     model_changes={"spot": SPOT},
     becomes=_rebate_at_expiry,
     reference_model=lambda model, p: model.replace(rate=0.0),
@@ -187,12 +200,13 @@ _IN_PLUS_OUT = PathIdentity(
 _IN_PLUS_OUT_REBATES = PathIdentity(
     "in_plus_out_with_rebates",
     lambda p: [
-        (1.0, _with_rebate_at_expiry(p)),
-        (1.0, _with_rebate_at_expiry(_sibling(p, out=not p.out))),
+        (1.0, _near_with_rebate_at_expiry(p)),
+        (1.0, _near_with_rebate_at_expiry(_sibling(p, out=not p.out))),
         (-1.0, _vanilla(p)),
         (-1.0, ZeroCouponBond(cash=REBATE, maturity=p.maturity)),
     ],
-    note="rebates R at T: exactly one of knock-in and knock-out pays R, so in + out = vanilla + R",
+    note="rebates R at T, barrier 1 from the spot: exactly one of knock-in and knock-out pays R, "
+    "so in + out = vanilla + R",
 )
 _BELOW_VANILLA = Bound(
     "at_most_vanilla",
