@@ -56,8 +56,8 @@ class BermudanIgnoringLastDate(BermudanPut):
     [
         (CallDiscountedTwice, "zero_strike"),
         (AsianDroppingLastFixing, "one_fixing"),
-        (UpOutWrongSide, "barrier_to_infinity"),
-        (DownOutWrongSide, "barrier_to_zero"),
+        (UpOutWrongSide, "barrier_out_of_reach"),
+        (DownOutWrongSide, "barrier_out_of_reach"),
         (BermudanIgnoringLastDate, "one_exercise_date"),
     ],
 )
