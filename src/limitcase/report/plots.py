@@ -93,9 +93,18 @@ def sweep_png(sweep: "Sweep", title: str | None = None) -> bytes:
     ax.set_xticklabels(labels, rotation=0 if max(len(s) for s in labels) < 7 else 30)
     ax.set_xlim(-0.5, xs[-1] + 0.5)
     others = [k for k in plan.points[0] if k != plan.param] if plan.points else []
-    swept = [k for k in others if len({repr(p[k]) for p in plan.points}) > 1]
-    held = [f"{k}={_tick(plan.points[-1][k])}" for k in others if k not in swept]
-    extra = ([f"{', '.join(swept)} moved alongside"] if swept else []) + ([f"{', '.join(held)} held"] if held else [])
+    finite = plan.points[:-1]
+    moved, held, until = [], [], []
+    for k in others:
+        before = {repr(p[k]) for p in finite}
+        if len(before) > 1:
+            moved.append(k)
+        elif not finite or finite[0][k] == plan.points[-1][k]:
+            held.append(f"{k}={_tick(plan.points[-1][k])}")
+        else:
+            until.append(f"{k}={_tick(finite[0][k])} until the limit")
+    extra = ([f"{', '.join(moved)} moved alongside"] if moved else []) + \
+        ([f"{', '.join(held)} held"] if held else []) + until
     ax.set_xlabel(plan.param + (f"   ({'; '.join(extra)})" if extra else ""))
     ax.set_ylabel("price")
     ax.set_title(title or f"{plan.product} / {plan.case}", fontsize=11)
