@@ -15,7 +15,7 @@ from ..suite import DEFAULT_ALPHA, DEFAULT_SEED
 
 @click.command("report")
 @click.argument("paths_in", metavar="[PATH]...", nargs=-1, type=click.Path())
-@click.option("-o", "--output", "outdir", type=click.Path(file_okay=False), default="dossier", show_default=True,
+@click.option("-o", "--output", "outdir", type=click.Path(file_okay=False), default="limitcase-report", show_default=True,
               help="Folder to write index.html, one page per product, Markdown twins and img/.")
 @click.option("--paths", type=click.IntRange(min=100), default=REPORT_PATHS, show_default=True,
               help="Monte Carlo paths per check and per sweep point (raise it for sharper pictures).")
