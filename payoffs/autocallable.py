@@ -39,14 +39,19 @@ from .vanilla import ZeroCouponBond
 SCENARIO = BlackScholes(spot=100.0, rate=0.03, dividend=0.02, vol=0.25)
 """An equity index: spot 100, rate 3%, dividend yield 2%, volatility 25% (invented)."""
 
+PINNED = {"spot": 1.0, "rate": SCENARIO.rate, "dividend": SCENARIO.rate, "vol": 0.0}
+"""Model changes that hold the asset at its spot exactly on every date (no volatility, no
+drift; spot 1 so that exp(log S0) is S0 to the last bit): every fixing sits on a level of 1,
+which pins the contract's inequalities (a fixing equal to a level counts as at or above)."""
+
 
 class _Note(Product):
     """Terms shared by the notes: notional, dates, conditional coupons, protection."""
 
     abstract = True
 
-    notional = Param(100.0, low=0.0, low_open=True, doc="amount redeemed and on which coupons accrue")
-    maturity = Param(3.0, low=0.0, low_open=True, doc="last observation date, in years")
+    notional = Param(100.0, low=0.0, low_open=True, high=math.inf, high_open=True, doc="amount redeemed and on which coupons accrue")
+    maturity = Param(3.0, low=0.0, low_open=True, high=math.inf, high_open=True, doc="last observation date, in years")
     observations = Param(6, low=1, high=120, integer=True, doc="number of equally spaced observation dates")
     coupon = Param(0.04, low=0.0, high=1.0, doc="coupon per observation date, as a fraction of the notional")
     coupon_barrier = Param(
@@ -68,6 +73,19 @@ class _Note(Product):
             notional=self.notional, maturity=self.maturity, observations=self.observations,
             coupon=self.coupon, coupon_barrier=0.0, protection=0.0,
         )
+
+
+def _at_the_levels(changes: dict) -> Reduction:
+    """Every fixing exactly on the coupon and protection levels: all coupons and N are paid."""
+    return Reduction(
+        "fixings_at_the_levels",
+        {**changes, "coupon_barrier": 1.0, "protection": 1.0},
+        becomes=lambda p: DigitalCouponNote(**{**_note_terms(p), "coupon_barrier": 0.0, "protection": 0.0}),
+        model_changes=PINNED,
+        allowance=rounding(lambda p: p.notional * (1.0 + p.coupon * p.observations)),
+        reason=ROUNDING_REASON,
+        note="the asset pinned on the levels: S(t_i) >= B S(0) holds with equality, every coupon and N are paid",
+    )
 
 
 def _linear_in_coupon(p: _Note):
@@ -106,6 +124,7 @@ class DigitalCouponNote(_Note):
 
     reductions = (
         own_closed_form(note="cash-or-nothing coupons + bond - gap put"),
+        _at_the_levels({}),
         Reduction(
             "zero_coupon_bond",
             {"coupon": 0.0, "protection": 0.0},
@@ -139,7 +158,9 @@ class Autocallable(_Note):
     ones); called on the first date t_i < T with S(t_i) >= B_a S(0), paying N and that date's
     coupon; otherwise at T: N if S(T) >= B_p S(0), else N S(T) / S(0).
 
-    Limits: trigger inf and no memory -> the :class:`DigitalCouponNote` (on every path);
+    Limits: coupon barrier inf -> coupons only with the call (with memory, a snowball: the call
+    on t_i pays N (1 + i c); without, N (1 + c)), by quadrature; trigger inf and no memory -> the
+    :class:`DigitalCouponNote` (on every path);
     with protection 0 too -> a bond plus digital coupons; coupon barrier 0 (trigger inf,
     protection 0) -> every coupon paid, a fixed-coupon bond; trigger 0 -> called on the first
     date, a bond paying N (1 + c) at t_1; trigger inf, protection 0 and no coupon -> a
@@ -152,11 +173,22 @@ class Autocallable(_Note):
     trigger = Param(
         1.0, low=0.0, high=math.inf, doc="the note is called on t_i < T when S(t_i) >= trigger * S(0)"
     )
+    coupon_barrier = Param(
+        0.7, low=0.0, high=math.inf, doc="a coupon is due when S(t_i) >= coupon_barrier * S(0); inf: only on a call"
+    )
     memory = Param(1, low=0, high=1, integer=True, doc="1: a coupon paid also pays the missed ones; 0: it does not")
 
     reductions = (
         own_closed_form("quadrature", note="log-price density carried from date to date by Gauss-Legendre quadrature"),
         own_closed_form("quadrature_no_memory", {"memory": 0}, note="the same without memory"),
+        own_closed_form(
+            "coupon_only_on_call", {"coupon_barrier": math.inf},
+            note="coupon barrier inf: coupons come only with the call, all those accrued since issue (a snowball)",
+        ),
+        own_closed_form(
+            "coupon_only_on_call_no_memory", {"coupon_barrier": math.inf, "memory": 0},
+            note="coupon barrier inf, no memory: the call on any date pays N (1 + c)",
+        ),
         Reduction(
             "never_called",
             {"trigger": math.inf, "memory": 0},
@@ -176,6 +208,16 @@ class Autocallable(_Note):
             allowance=rounding(lambda p: p.notional * (1.0 + p.coupon * p.observations)),
             reason=ROUNDING_REASON,
             note="coupon barrier 0: every coupon is paid on its date, memory or not -- a fixed-coupon bond",
+        ),
+        _at_the_levels({"trigger": math.inf}),
+        Reduction(
+            "called_at_the_trigger",
+            {},
+            becomes=lambda p: ZeroCouponBond(cash=p.notional * (1.0 + p.coupon), maturity=p.dates()[0]),
+            model_changes=PINNED,
+            allowance=rounding(lambda p: p.notional * (1.0 + p.coupon)),
+            reason=ROUNDING_REASON,
+            note="the asset pinned at the trigger: a fixing equal to it calls the note, N (1 + c) at t_1",
         ),
         Reduction(
             "called_on_first_date",

@@ -94,6 +94,14 @@ class NoteCouponWrongSide(DigitalCouponNote):
         return flows
 
 
+class NoteStrictLevels(DigitalCouponNote):
+    def payoff(self, obs):  # "above" read as strictly above: a fixing on a level pays nothing
+        perf = obs.s / obs.s0
+        flows = self.coupon * self.notional * (perf > self.coupon_barrier)
+        flows[:, -1] += self.notional * np.where(perf[:, -1] > self.protection, 1.0, perf[:, -1])
+        return flows
+
+
 class NoteCouponAsComplement(DigitalCouponNote):
     def payoff(self, obs):  # a percent-of-par slip: the coupon entered as 1 - c
         return DigitalCouponNote.payoff(self.replace(coupon=1.0 - self.coupon), obs)
@@ -111,18 +119,20 @@ class NoteLastCouponTwice(DigitalCouponNote):
         return flows
 
 
-def twin_flows(p, obs, coupon_due=np.greater_equal, repaid=np.greater_equal, first_period=1, stops=True):
+def twin_flows(p, obs, coupon_due=np.greater_equal, repaid=np.greater_equal, calls=np.greater_equal, first_period=1,
+               stops=True, call_pays_all_dates=False):
     """The autocallable's cash flows written out again, with one term-sheet rule swappable
     per broken twin (the defaults reproduce the product, see the test below)."""
     perf = obs.s / obs.s0
     date = np.arange(perf.shape[1])
     last = date[-1]
-    hit = (perf >= p.trigger) & (date < last)
+    hit = calls(perf, p.trigger) & (date < last)
     called = hit.any(axis=1)
     stop = np.where(called, hit.argmax(axis=1), last)[:, None]
     ends = date == stop
     alive = date <= stop if stops else np.ones_like(ends)
-    due = alive & (coupon_due(perf, p.coupon_barrier) | (ends & called[:, None]))
+    with_call = called[:, None] if call_pays_all_dates else ends & called[:, None]
+    due = alive & (coupon_due(perf, p.coupon_barrier) | with_call)
     if p.memory:
         coupons = np.diff(np.maximum.accumulate(np.where(due, date + first_period, 0), axis=1), axis=1, prepend=0)
     else:
@@ -169,6 +179,21 @@ class AutocallMemoryOffByOne(Autocallable):
         return twin_flows(self, obs, first_period=0)
 
 
+class AutocallCallPaysEveryDate(Autocallable):
+    def payoff(self, obs):  # a called note treated as due on every date up to the call
+        return twin_flows(self, obs, call_pays_all_dates=True)
+
+
+class AutocallStrictCoupon(Autocallable):
+    def payoff(self, obs):  # a fixing on the coupon barrier taken as below it
+        return twin_flows(self, obs, coupon_due=np.greater)
+
+
+class AutocallStrictTrigger(Autocallable):
+    def payoff(self, obs):  # a fixing on the trigger taken as below it
+        return twin_flows(self, obs, calls=np.greater)
+
+
 class AutocallLastCouponTwice(Autocallable):
     def payoff(self, obs):
         flows = Autocallable.payoff(self, obs)
@@ -189,6 +214,7 @@ class AutocallCouponCompounded(Autocallable):
 BROKEN = [
     (NoteProtectionWrongSide, "closed_form"),
     (NoteForgetsProtection, "zero_coupon_bond"),
+    (NoteStrictLevels, "fixings_at_the_levels"),
     (NoteCouponAsComplement, "increasing_in_coupon"),
     (NoteCouponWrongSide, "decreasing_in_coupon_barrier"),
     (NoteProtectionWrongSide, "decreasing_in_protection"),
@@ -196,10 +222,14 @@ BROKEN = [
     (NoteLastCouponTwice, "below_sure_coupons"),
     (AutocallForgetsMemory, "quadrature"),
     (AutocallOnCouponBarrier, "quadrature_no_memory"),
+    (AutocallForgetsMemory, "coupon_only_on_call"),
+    (AutocallCallPaysEveryDate, "coupon_only_on_call_no_memory"),
     (AutocallProtectionWrongSide, "never_called"),
     (AutocallCouponWrongSide, "bond_and_coupon_strip"),
     (AutocallMemoryOffByOne, "every_coupon_paid"),
     (AutocallCouponsAfterCall, "called_on_first_date"),
+    (AutocallStrictCoupon, "fixings_at_the_levels"),
+    (AutocallStrictTrigger, "called_at_the_trigger"),
     (AutocallProtectionWrongSide, "zero_coupon_bond"),
     (AutocallCouponAsComplement, "increasing_in_coupon"),
     (AutocallCouponWrongSide, "decreasing_in_coupon_barrier"),
