@@ -7,7 +7,7 @@ equally spaced up to the maturity T):
 * coupon: on each date on which the note is alive and ``P(t_i) >= coupon barrier``, it pays
   ``c N``; with memory it also pays every coupon missed since the last one paid;
 * autocall: on each date but the last, if ``P(t_i) >= trigger`` the note pays N plus that
-  date's coupon (with memory, plus the missed ones) and ends;
+  date's coupon (with memory, plus the missed ones), whatever the coupon barrier, and ends;
 * maturity, if never called: N if ``P(T) >= protection``, else ``N P(T)`` (the capital is
   at risk below the protection barrier), plus the coupon if due.
 
@@ -17,17 +17,19 @@ Checks. With the trigger out of reach (inf) and no memory the autocallable is th
 :class:`DigitalCouponNote`, priced by cash-or-nothing digitals, a bond and a gap put
 (Rubinstein and Reiner 1991); with protection 0 as well it is a bond plus a strip of
 digital coupons. A trigger of 0 calls the note on the first date, a bond paying N(1 + c)
-then. At its own terms the autocallable is priced by integrating the density of the
-log-price from date to date (Gauss-Legendre quadrature) -- a reference that shares no code
-with the simulation.
+then. At its own terms, and with coupons paid only on a call (coupon barrier inf), the
+autocallable is priced by carrying the density of the log-price from date to date with
+Gauss-Legendre quadrature -- a reference that shares no code with the simulation. A model
+that holds the asset exactly at its spot decides the contract's inequalities: a fixing on
+the trigger calls, a fixing on the coupon barrier pays.
 """
 
 from __future__ import annotations
 
-import functools
 import math
 
 import numpy as np
+from scipy.special import roots_legendre
 from scipy.stats import norm
 
 from limitcase import BlackScholes, Bound, Model, Monotone, NoReference, Param, Product, Reduction
@@ -117,7 +119,9 @@ class DigitalCouponNote(_Note):
     Reference (Black-Scholes): the coupons are cash-or-nothing calls struck at B_c S(0); the
     redemption is a bond paying N less N / S(0) gap puts paying S(0) - S(T) when
     S(T) < B_p S(0) (Rubinstein and Reiner 1991).
-    Limits: coupon 0 and protection 0 -> a zero-coupon bond paying N (on every path).
+    Limits: coupon 0 and protection 0 -> a zero-coupon bond paying N; fixings exactly on the
+    coupon and protection levels (the asset held at its spot) -> every coupon and N paid (both
+    on every path).
     Relations: increasing in the coupon, decreasing in the coupon barrier and in the
     protection barrier, linear in the coupon, below the fixed-coupon bond (on every path).
     """
@@ -158,16 +162,22 @@ class Autocallable(_Note):
     ones); called on the first date t_i < T with S(t_i) >= B_a S(0), paying N and that date's
     coupon; otherwise at T: N if S(T) >= B_p S(0), else N S(T) / S(0).
 
-    Limits: coupon barrier inf -> coupons only with the call (with memory, a snowball: the call
-    on t_i pays N (1 + i c); without, N (1 + c)), by quadrature; trigger inf and no memory -> the
-    :class:`DigitalCouponNote` (on every path);
-    with protection 0 too -> a bond plus digital coupons; coupon barrier 0 (trigger inf,
-    protection 0) -> every coupon paid, a fixed-coupon bond; trigger 0 -> called on the first
-    date, a bond paying N (1 + c) at t_1; trigger inf, protection 0 and no coupon -> a
-    zero-coupon bond (all on every path). At its own terms: the quadrature reference.
-    Relations: increasing in the coupon, decreasing in the coupon barrier and the protection
-    barrier, memory worth at least no memory, linear in the coupon, below the same note with
-    sure coupons and protected capital (all on every path).
+    Limits, on every path:
+
+    * trigger inf, no memory -> the :class:`DigitalCouponNote`; with protection 0 too -> a
+      bond plus digital coupons;
+    * coupon barrier 0 (trigger inf, protection 0) -> every coupon paid: a fixed-coupon bond;
+    * trigger 0 -> called on the first date, a bond paying N (1 + c) at t_1; so is a fixing
+      exactly on the trigger (the asset held at its spot);
+    * fixings exactly on the coupon and protection levels (trigger inf) -> every coupon and N;
+    * trigger inf, protection 0 and no coupon -> a zero-coupon bond.
+
+    By quadrature: the note at its own terms, with and without memory, and with coupons only
+    on a call (coupon barrier inf: with memory a snowball, the call on t_i paying N (1 + i c);
+    without, N (1 + c)).
+    Relations, on every path: increasing in the coupon, decreasing in the coupon barrier and
+    in the protection barrier, memory worth at least no memory, linear in the coupon, below
+    the same note with sure coupons and protected capital.
     """
 
     trigger = Param(
@@ -291,7 +301,8 @@ SD_RANGE = 9.0
 mass outside is about 2e-19)."""
 
 NODES_PER_SD = 8
-"""Gauss-Legendre nodes per standard deviation of one date-to-date step."""
+"""Gauss-Legendre nodes (``scipy.special.roots_legendre``) per standard deviation of one
+date-to-date step."""
 
 
 def _nodes(lo: float, hi: float, levels: tuple[float, ...], step_sd: float) -> tuple[np.ndarray, np.ndarray]:
@@ -301,15 +312,10 @@ def _nodes(lo: float, hi: float, levels: tuple[float, ...], step_sd: float) -> t
     edges = np.unique([lo, hi, *inside])
     xs, ws = [], []
     for a, b in zip(edges[:-1], edges[1:]):
-        u, w = _gauss_legendre(16 * math.ceil(NODES_PER_SD * (b - a) / step_sd / 16))  # a few sizes, cached
+        u, w = roots_legendre(max(16, math.ceil(NODES_PER_SD * (b - a) / step_sd)))
         xs.append(0.5 * (b - a) * u + 0.5 * (a + b))
         ws.append(0.5 * (b - a) * w)
     return np.concatenate(xs), np.concatenate(ws)
-
-
-@functools.lru_cache(maxsize=64)
-def _gauss_legendre(k: int) -> tuple[np.ndarray, np.ndarray]:
-    return np.polynomial.legendre.leggauss(k)
 
 
 def _log(level: float) -> float:
@@ -363,8 +369,10 @@ def autocall_by_quadrature(
     the coupon), the call :math:`e^{-rt_i} N \int_{x \ge \ln B_a} g`, and at T
     :math:`e^{-rT} N \int (1\{x \ge \ln B_p\} + e^x 1\{x < \ln B_p\}) g`. A coupon paid
     moves the mass to k = 0, a missed one to k + 1; only the region below the trigger goes
-    on to the next date. Measured accuracy: about 1e-10 relative at the default terms
-    (doubling the nodes changes the price by less than that).
+    on to the next date. Measured accuracy: halving or doubling the nodes (4 or 16 per
+    standard deviation) moves the price by less than 1e-13 relative at the default terms,
+    and with the trigger at inf and no memory it meets the closed form of the
+    :class:`DigitalCouponNote` to about 1e-12 relative.
 
     References
     ----------

@@ -260,7 +260,7 @@ def test_quadrature_meets_the_digital_closed_form_when_never_called():
     for terms in ({}, {"protection": 0.0}, {"coupon_barrier": 0.0}, {"coupon_barrier": 1.2, "protection": 0.9},
                   {"observations": 1}, {"observations": 12, "maturity": 2.0}):
         never = Autocallable(trigger=math.inf, memory=0, **terms).reference(SCENARIO)
-        assert never == pytest.approx(DigitalCouponNote(**terms).reference(SCENARIO), rel=1e-10)
+        assert never == pytest.approx(DigitalCouponNote(**terms).reference(SCENARIO), rel=1e-11)
 
 
 def test_quadrature_with_trigger_zero_is_the_first_date_bond():
@@ -308,7 +308,7 @@ def test_quadrature_has_converged(monkeypatch):
     note = Autocallable()
     coarse = note.reference(SCENARIO)
     monkeypatch.setattr(ac, "NODES_PER_SD", 2 * ac.NODES_PER_SD)
-    assert note.reference(SCENARIO) == pytest.approx(coarse, rel=1e-10)
+    assert note.reference(SCENARIO) == pytest.approx(coarse, rel=1e-12)
 
 
 def test_digital_note_closed_form_by_quadrature():
