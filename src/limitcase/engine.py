@@ -39,7 +39,6 @@ check that fails only with controls points at the control (re-run with ``--metho
 from __future__ import annotations
 
 import math
-import warnings
 import zlib
 from dataclasses import dataclass, field
 from typing import Any, Callable, Sequence

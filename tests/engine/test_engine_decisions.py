@@ -13,12 +13,11 @@ import pytest
 from scipy import stats
 
 from limitcase import BLOCK
-from limitcase.reduce import Check
 from limitcase.suite import run_checks
 from limitcase.verdict import POWER, detectable_bias, holm, p_value
 from limitcase_payoffs.vanilla import EuropeanCall
 
-from .conftest import CALL_REFERENCE, MODEL, call_check
+from .conftest import CALL_REFERENCE, call_check
 
 RUNS = 200
 ALPHA = 0.05

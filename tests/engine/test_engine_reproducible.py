@@ -4,7 +4,7 @@ structure of a precision run, and for every sampling method."""
 import numpy as np
 import pytest
 
-from limitcase import BLOCK, BlackScholes, evaluate
+from limitcase import BLOCK, evaluate
 from limitcase.engine import PathRule
 from limitcase.loader import load_products
 from limitcase.models.merton import Merton
@@ -150,3 +150,17 @@ def test_no_pools_inside_workers():
         assert r.extra["processes"] == 1
     finally:
         suite._IN_WORKER = False
+
+
+def test_one_process_where_fork_is_missing(monkeypatch):
+    """Where the platform cannot fork, a run asked for two workers runs in this process, says
+    so with a RuntimeWarning, and gives the same numbers."""
+    import multiprocessing
+
+    checks = [call_check(), call_check(case="twin")]
+    ref = run_checks(checks, paths=BLOCK, seed=4, workers=1)
+    monkeypatch.setattr(multiprocessing, "get_all_start_methods", lambda: ["spawn"])
+    with pytest.warns(RuntimeWarning, match="cannot fork worker processes"):
+        r = run_checks(checks, paths=BLOCK, seed=4, workers=2)
+    assert r.extra["processes"] == 1
+    assert [o.to_dict() for o in r.outcomes] == [o.to_dict() for o in ref.outcomes]
