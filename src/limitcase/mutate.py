@@ -76,9 +76,9 @@ import textwrap
 import time
 import types
 import warnings
-from dataclasses import asdict, dataclass, field
+from dataclasses import asdict, dataclass
 from pathlib import Path
-from typing import Any, Callable, Iterable, Iterator, Mapping, Sequence
+from typing import Any, Callable, Iterable, Iterator, Sequence
 
 import numpy as np
 from scipy.stats import norm
@@ -87,9 +87,9 @@ from .engine import BLOCK, PathRule, case_key, evaluate
 from .errors import InputError, LimitcaseError, ParamError
 from .models.base import Model
 from .product import Cashflows, Observed, Product
-from .reduce import Bound, Check, Convex, Identity, Monotone, checks_for
+from .reduce import Check, checks_for
 from .suite import DEFAULT_ALPHA, DEFAULT_PATHS, DEFAULT_SEED, run_checks
-from .verdict import POWER, Outcome
+from .verdict import POWER, Outcome, finalise
 
 __all__ = [
     "OPERATORS",
@@ -1512,12 +1512,13 @@ _REGISTRY: dict[str, Any] = {}
 dynamically built class cannot be pickled, but a forked worker inherits it)."""
 
 
-def _safe_run(cls: type[Product], paths: int, seed: int, alpha: float) -> tuple[list[Outcome], str]:
+def _safe_run(cls: type[Product], paths: int, seed: int, alpha: float, method: str
+              ) -> tuple[list[Outcome], str]:
     try:
         with np.errstate(all="ignore"), warnings.catch_warnings():
             warnings.simplefilter("ignore")
             checks = checks_for(cls)
-            result = run_checks(checks, paths=paths, seed=seed, alpha=alpha)
+            result = run_checks(checks, paths=paths, seed=seed, alpha=alpha, method=method)
         return result.outcomes, ""
     except Exception as exc:  # the mutant broke the check machinery itself: a visible failure
         return [], f"the check run raised {type(exc).__name__}: {exc}"
@@ -1545,13 +1546,13 @@ def _detection(outcomes: list[Outcome], crash: str, baseline: Sequence[str]) -> 
     return "survived", [], ""
 
 
-def _task_original(index: int, paths: int) -> tuple[int, int, list[dict]]:
+def _task_original(index: int, paths: int) -> tuple[int, int, list[Outcome]]:
     s = _REGISTRY["settings"]
     cls = _REGISTRY["products"][index]
-    outcomes, crash = _safe_run(cls, paths, s["seed"], s["alpha"])
+    outcomes, crash = _safe_run(cls, paths, s["seed"], s["alpha"], s["method"])
     if crash:
-        return index, paths, [{"case": "(run)", "verdict": "error", "message": crash}]
-    return index, paths, [o.to_dict() for o in outcomes]
+        return index, paths, [Outcome(product=cls.__name__, case="(run)", kind="run", verdict="error", message=crash)]
+    return index, paths, outcomes
 
 
 def _safe_equivalence(mutant: Mutant, paths: int, seed: int, stop_early: bool) -> Equivalence:
@@ -1581,7 +1582,7 @@ def _task_mutant(mid: int, stage: str, baseline: Sequence[str]) -> dict:
         paths = s["quick_paths"]
     else:
         paths = s["paths"]
-    outcomes, crash = _safe_run(mutant.cls, paths, s["seed"], s["alpha"])
+    outcomes, crash = _safe_run(mutant.cls, paths, s["seed"], s["alpha"], s["method"])
     status, cases, message = _detection(outcomes, crash, baseline)
     out.update(status=status, paths=paths, cases=cases, message=message)
     if status == "survived" and (stage == "full" or s["paths"] <= s["quick_paths"]):
@@ -1623,6 +1624,7 @@ def run_mutation(
     alpha: float = DEFAULT_ALPHA,
     workers: int | None = None,
     operators: Sequence[str] | None = None,
+    method: str = "auto",
     progress: Callable[[int, int], None] | None = None,
 ) -> MutationReport:
     """Mutate each product's payoff code, run its checks on every mutant, and score.
@@ -1644,12 +1646,23 @@ def run_mutation(
         Worker processes (default: the number of CPUs); 1 runs in this process.
     operators
         Operator names to apply (default: all of :data:`OPERATORS`).
+    method
+        Sampling method of the checks, as ``limitcase check --method`` (default ``"auto"``,
+        the same as ``check``); the equivalence comparison always uses plain paths.
     progress
         Called with ``(done, total)`` as tasks finish.
 
     Returns
     -------
     MutationReport
+
+    Notes
+    -----
+    A mutant is judged as ``limitcase check`` judges a product run on its own: Holm's
+    correction over that product's checks, at ``alpha``. The unmutated products are judged
+    as ``limitcase check`` judges the whole run: Holm over every check of every product
+    (``false_alarms``); a case an original fails at its own per-product level cannot
+    detect that product's mutants and is listed in ``settings["excluded_cases"]``.
     """
     for name, value, low in (("paths", paths, 2), ("quick_paths", quick_paths, 2),
                              ("equivalence_paths", equivalence_paths, 2)):
@@ -1670,8 +1683,12 @@ def run_mutation(
         mutants.extend(ms)
         discarded.extend(ds)
     product_list = list(products)
+    from .sampling import METHODS
+
+    if method not in METHODS:
+        raise ParamError(f"method={method!r} is not a sampling method; choose from {', '.join(METHODS)}")
     settings = dict(paths=int(paths), quick_paths=int(quick_paths), equivalence_paths=int(equivalence_paths),
-                    seed=int(seed), alpha=float(alpha), workers=workers,
+                    seed=int(seed), alpha=float(alpha), workers=workers, method=method,
                     operators=list(OPERATORS) if operators is None else list(operators))
     _REGISTRY.clear()
     _REGISTRY.update(products=product_list, mutants=mutants, settings=settings)
@@ -1684,12 +1701,12 @@ def run_mutation(
         if progress is not None:
             progress(done[0], total + extra)
 
-    baselines: dict[tuple[int, int], list[dict]] = {}
+    baselines: dict[tuple[int, int], list[Outcome]] = {}
     first: dict[int, dict] = {}
     final: dict[int, dict] = {}
     pool = _Pool(min(workers, max(1, len(mutants) + len(product_list))))
     try:
-        def got_original(res: tuple[int, int, list[dict]]) -> None:
+        def got_original(res: tuple[int, int, list[Outcome]]) -> None:
             baselines[(res[0], res[1])] = res[2]
             tick()
 
@@ -1697,7 +1714,7 @@ def run_mutation(
                  got_original)
 
         def verdicts(cls: type[Product], budget: int) -> list[str]:
-            return [o["verdict"] for o in baselines[(index_of[cls], budget)]]
+            return [o.verdict for o in baselines[(index_of[cls], budget)]]
 
         def got_first(res: dict) -> None:
             first[res["mid"]] = res
@@ -1739,14 +1756,22 @@ def run_mutation(
             off_checks=_json_safe(asdict(off)) if off is not None else None,
         ))
     originals: dict[str, list[dict]] = {}
+    run_wide = finalise([o for i in range(len(product_list)) for o in baselines[(i, paths)]], alpha)
     false_alarms: list[dict] = []
+    for o in run_wide:
+        if o.verdict != "pass":
+            cls = next(c for c in product_list if c.__name__ == o.product)
+            false_alarms.append({"product": o.product, "family": family_of(cls), "case": o.case,
+                                 "verdict": o.verdict, "message": o.message, "paths": paths})
+    excluded = []
     for cls, i in index_of.items():
-        full = baselines[(i, paths)]
-        originals[cls.__name__] = full
-        for o in full:
-            if o["verdict"] != "pass":
-                false_alarms.append({"product": cls.__name__, "family": family_of(cls), "case": o["case"],
-                                     "verdict": o["verdict"], "message": o.get("message", ""), "paths": paths})
+        originals[cls.__name__] = [o.to_dict() for o in baselines[(i, paths)]]
+        for budget in dict.fromkeys((quick_paths, paths)):
+            for o in baselines[(i, budget)]:
+                if o.verdict != "pass":
+                    excluded.append({"product": cls.__name__, "case": o.case, "paths": budget,
+                                     "verdict": o.verdict, "message": o.message})
+    settings["excluded_cases"] = excluded
     return MutationReport(
         results=results, discarded=discarded, originals=originals, false_alarms=false_alarms, settings=settings,
         runtime=time.monotonic() - start,
@@ -1814,8 +1839,7 @@ def suggest(mutant: Mutant, eq: Equivalence | None, checks: Sequence[Check] | No
     """
     mu = mutant.mutation
     cls = mutant.original
-    roles = {_role(p) for p in mu.params_involved}
-    involved = ", ".join(mu.params_involved) or "no parameter"
+    involved = ", ".join(mu.params_involved) or "the payoff"
     reds, rels = _declared(cls)
     parts: list[str] = []
 
@@ -1855,75 +1879,120 @@ def suggest(mutant: Mutant, eq: Equivalence | None, checks: Sequence[Check] | No
                     parts.append(f"A check of it against a trusted price at {best.point} would see the shift "
                                  f"with {POWER:.0%} power from about {max(need, 2):,} paths.")
 
+    rec = _recommendation(mutant, eq)
+    declared = f"Declared: reductions {', '.join(reds) or 'none'}; relations {', '.join(rels) or 'none'}."
+    return " ".join(parts + [rec, declared])
+
+
+_BARRIER_ADVICE = (
+    "Add a path-by-path Identity in + out = vanilla with the matching knock-in (or knock-out), a pathwise "
+    "Monotone in the barrier, and a reduction where the barrier is touched: the barrier at the spot "
+    "(knocked today), or a closed form with the barrier near the spot (continuous monitoring: "
+    "Reiner-Rubinstein)."
+)
+
+
+def _recommendation(mutant: Mutant, eq: Equivalence | None) -> str:
+    """The kind of check that would catch a surviving mutant, from the operator, the
+    function it is in and the roles of the parameters the mutated expression reads."""
+    mu = mutant.mutation
+    cls = mutant.original
     op = mu.operator
-    rec: list[str] = []
+    roles = {_role(p) for p in mu.params_involved}
+    counts = [p for p in cls.param_specs() if _role(p) == "count"]
+    count = counts[0] if counts else None
+    one_date = count is not None and any(
+        count in r.changes and not callable(r.changes[count]) and r.changes[count] == 1 for r in cls.reductions
+    )
+    in_dates = mu.function.rsplit(".", 1)[-1] in ("dates", "exercise_dates")
     if eq is not None and eq.edge_only and op == "compare_strict":
         lvl = next((p for p in mu.params_involved if _role(p) in ("barrier", "strike")), None)
-        where = f"{lvl} set to the spot" if lvl else "the level set to the spot"
-        rec.append(
-            f"To pin it, add a reduction under a zero-volatility model (model_changes vol=0 and dividend = rate, "
-            f"so the path stays at the spot on every date) with {where}: the path then sits exactly on the "
-            "level, and whether touching it counts is decided against a bond or the vanilla's intrinsic value. "
-            "Or document that the contract's inequality is immaterial under continuous models."
+        where = f"{lvl} set to the spot" if lvl else "the compared level set to the spot"
+        return (
+            "To pin it, add a reduction under a zero-volatility model (model_changes vol=0 and dividend = rate, "
+            f"so the price stays at the spot on every date) with {where}: the path then sits exactly on the "
+            "level and the contract's strict or non-strict inequality decides the cash flow, against a bond or "
+            "the intrinsic value. Or state in the docstring that equality is immaterial under continuous models."
         )
-    elif "barrier" in roles or op == "at_maturity":
-        rec.append(
-            "The barrier test is not exercised where it matters: reductions that put the barrier out of reach "
-            "(never touched) cannot see where or how it is tested. Add a path-by-path Identity in + out = vanilla "
-            "with the matching knock-in, a Monotone in the barrier (pathwise), and a reduction to a closed form "
-            "with the barrier near the spot (a continuous barrier: Reiner-Rubinstein; a discrete one: its own "
-            "closed form on one date, or barrier at the spot, knocked today)."
+    if in_dates:
+        moved = [p.point for p in (eq.points if eq is not None else ()) if "dates differ" in p.note]
+        at = f" (they differ at {', '.join(moved[:3])})" if moved else ""
+        return (
+            f"The schedule is wrong{at}, but no check there depends on when the dates fall (both sides of the "
+            "check vanish or ignore the dates). Add a check whose target depends on every date at those "
+            "parameters: the product's closed form there, or a path-by-path Identity with a product built on "
+            "the intended schedule."
         )
-    elif "rebate" in roles or op == "rebate":
-        rec.append(
-            "Add a check where the rebate is paid: a reduction with the barrier at the spot (knocked at once, "
-            "the rebate alone: a bond paying R), or an Identity in + out = vanilla + R at T with rebates."
+    if op == "strike_spot":
+        return (
+            "Strike and today's spot are confused: the checks that could see it price the product with the "
+            "strike at the spot. Add a check against a trusted price with the strike away from the spot "
+            "(own_closed_form with the strike moved, e.g. 10% out of the money), or a path-by-path parity "
+            "Identity at such a strike."
         )
-    elif op == "discount":
-        rec.append(
-            "Add a check whose target carries the discounting: the product's own closed form at a non-zero rate "
-            "and maturity (own_closed_form), or a Bound against a discounted amount."
+    if op == "at_maturity":
+        if any(f"`{w}`" in mu.description for w in ("max", "min", "amax", "amin", "nanmax", "nanmin")):
+            return (
+                "The extreme over the dates is read at the last date only, and the checks cannot tell: a "
+                "reduction to one date makes both the same, and bounds such as 'at least the at-the-money "
+                "call' hold with equality. Add a path-by-path Identity with another product reading the same "
+                "extreme (e.g. floating lookback call = fixed-strike lookback put at K = S0 + forward at S0), "
+                f"or a trusted price at several dates{f' ({count} > 1)' if count else ''}."
+            )
+        return "The barrier is tested on the last date only. " + _BARRIER_ADVICE
+    if "rebate" in roles or op == "rebate":
+        return (
+            "Add a check where the rebate is paid: a reduction with the barrier at the spot (knocked at once: "
+            "the rebate alone, a bond paying R), or an Identity in + out = vanilla + R at T with rebates."
         )
-    elif op in ("fixing", "axis", "index_shift") or "count" in roles:
-        counts = [p for p in cls.param_specs() if _role(p) == "count"]
-        cnt = counts[0] if counts else "the number of dates"
-        rec.append(
-            f"Which dates are read is not seen: a reduction to one date ({cnt} = 1) cannot tell fixings apart. "
-            f"Add a check with several dates that depends on each of them: a closed form at {cnt} > 1 "
-            "(e.g. the geometric average: Kemna-Vorst; the discrete forward), or a path-by-path Identity with "
-            "a product on the same schedule (e.g. call - put = forward on the same average)."
+    if "barrier" in roles:
+        return "The barrier test is not exercised where it matters. " + _BARRIER_ADVICE
+    if op == "discount":
+        return (
+            "Add a check whose target carries the discounting: the product's own closed form at a non-zero "
+            "rate and maturity (own_closed_form), or a Bound against a discounted amount."
         )
-    elif "strike" in roles or op in ("strike_spot", "call_put", "sign", "max_min", "compare_side"):
-        rec.append(
+    if op in ("fixing", "axis", "index_shift") or "count" in roles:
+        if count is not None and not one_date:
+            return (
+                f"Which dates are read is not seen. Add a reduction to a single date ({count} = 1), where the "
+                "one date is the only one, so a date left out or shifted changes every cash flow, against what "
+                "the product becomes on one date (e.g. a knock-in monitored only at T is a gap option triggered "
+                "at the barrier, path by path)."
+            )
+        return (
+            "Which dates are read is not seen: a reduction to one date cannot tell fixings apart. Add a check "
+            f"with several dates{f' ({count} > 1)' if count else ''} that depends on each of them: a closed form "
+            "there (e.g. the geometric average: Kemna-Vorst), or a path-by-path Identity with a product on the "
+            "same schedule (e.g. call - put = forward on the same average)."
+        )
+    if "strike" in roles or op in ("call_put", "sign", "max_min", "compare_side"):
+        return (
             "Add a check at the default strike against a trusted price (own_closed_form), or a path-by-path "
             "parity Identity (call - put = forward) and a pathwise Monotone/Convex in the strike; reductions that "
             "move the strike to 0 or infinity make the strike term vanish."
         )
-    elif op == "compare_strict":
-        rec.append("Add a check where the compared quantities can be equal with positive probability.")
-    if not rec:
-        rec.append("Add a check at the default parameters against a trusted price (own_closed_form) or an Identity "
-                   "with a product that shares the mutated code's role.")
-    declared = f"Declared: reductions {', '.join(reds) or 'none'}; relations {', '.join(rels) or 'none'}."
-    return " ".join(parts + rec + [declared])
+    if op == "compare_strict":
+        return "Add a check where the compared quantities can be equal with positive probability."
+    return ("Add a check at the default parameters against a trusted price (own_closed_form), or an Identity "
+            "with a product that shares the mutated code's role.")
 
 
 def suggest_hidden(mutant: Mutant, off: PointDifference) -> str:
-    """For a mutant equivalent at every check point but not off them: which parameters the
-    checks never vary."""
+    """For a mutant equivalent at every check point but not off them: where it differs, and
+    which check would see it (the operator's recommendation)."""
     mu = mutant.mutation
-    involved = ", ".join(mu.params_involved) or "the parameters"
-    change = ""
-    if off.difference is not None and off.stderr is not None:
-        change = f" (mean change {off.difference:+.4g} +/- {off.stderr:.2g})"
-    hint = ""
-    if mu.operator == "strike_spot":
-        hint = (" Every check prices it with the strike equal to today's spot, where strike and spot cannot be "
-                "told apart: add a check at a strike away from the spot (own_closed_form with strike changed, "
-                "or a Monotone in the strike against a trusted price).")
-    return (f"Equivalent at every check point, but it pays differently at {off.point}{change}: the checks only "
-            f"use points where this change to the code reading {involved} is invisible.{hint} Add a check at "
-            "parameters where this code matters.")
+    involved = ", ".join(mu.params_involved) or "the payoff"
+    if off.random_violations:
+        change = (f": mean change {off.difference:+.4g} +/- {off.stderr:.2g}, {off.random_violations} of "
+                  f"{off.random_paths} simulated paths differ" if off.difference is not None else "")
+    elif off.note:
+        change = f": {off.note}"
+    else:
+        change = f": {off.edge_differences} of {off.edge_paths} edge paths differ (no simulated path)"
+    return (f"Equivalent at every check point, but it pays differently at {off.point}{change}. The checks only "
+            f"use points where this change to the code reading {involved} is invisible. "
+            + _recommendation(mutant, None))
 
 
 # ----------------------------------------------------------------------------------------

@@ -21,6 +21,12 @@ from ..cli_support import EXIT_FAIL, EXIT_OK, InputFailure, Progress, handle_err
 from ..suite import DEFAULT_ALPHA, DEFAULT_PATHS, DEFAULT_SEED
 
 
+def _methods() -> tuple[str, ...]:
+    from ..sampling import METHODS
+
+    return METHODS
+
+
 def _pct(x: float | None) -> str:
     return "-" if x is None else f"{100.0 * x:.1f}%"
 
@@ -99,6 +105,9 @@ def _equivalents(report: Any) -> str:
               help="Family-wise false-alarm rate of each product's checks (Holm).")
 @click.option("--workers", type=click.IntRange(min=1), default=None,
               help="Worker processes (default: the number of CPUs).")
+@click.option("--method", type=click.Choice(_methods()), default="auto", show_default=True,
+              help="Sampling method of the checks, as for 'limitcase check' (the equivalence "
+                   "comparison always uses plain paths).")
 @click.option("--operator", "operators", multiple=True, metavar="NAME",
               help="Apply only this mutation operator (repeatable; default all).")
 @click.option("--select", "selects", multiple=True, metavar="TEXT",
@@ -111,8 +120,9 @@ def _equivalents(report: Any) -> str:
 @click.option("--debug", is_flag=True, help="Show tracebacks for bad input.")
 @handle_errors
 def command(paths_in: tuple[str, ...], paths: int, quick_paths: int | None, equivalence_paths: int | None,
-            seed: int, alpha: float, workers: int | None, operators: tuple[str, ...], selects: tuple[str, ...],
-            min_score: float | None, show_caught: bool, json_path: str | None, debug: bool) -> None:
+            seed: int, alpha: float, workers: int | None, method: str, operators: tuple[str, ...],
+            selects: tuple[str, ...], min_score: float | None, show_caught: bool, json_path: str | None,
+            debug: bool) -> None:
     """Mutate the payoff code of the products in PATH (files or folders of .py files;
     default: the shipped catalogue), run each product's own checks on every mutant and
     report which bugs are caught, which survive (with the check that would catch them)
@@ -143,7 +153,7 @@ def command(paths_in: tuple[str, ...], paths: int, quick_paths: int | None, equi
     try:
         report = run_mutation(products, paths=paths, quick_paths=quick,
                               equivalence_paths=equivalence_paths or EQUIVALENCE_PATHS, seed=seed, alpha=alpha,
-                              workers=workers, operators=list(operators) or None, progress=tick)
+                              workers=workers, operators=list(operators) or None, method=method, progress=tick)
     finally:
         progress.close()
 
@@ -168,8 +178,13 @@ def command(paths_in: tuple[str, ...], paths: int, quick_paths: int | None, equi
         f"detected) of {c['caught'] + c['error'] + c['survived']} non-equivalent mutants; {c['equivalent']} "
         f"equivalent, {len(report.discarded)} discarded (do not compile); {len(products)} products, "
         f"{report.runtime:.1f} s on {s['workers']} worker(s) (first pass {s['quick_paths']} paths, "
-        f"survivors {s['paths']} paths, seed {s['seed']})"
+        f"survivors {s['paths']} paths, method {s['method']}, seed {s['seed']})"
     )
+    weak = [e for e in s.get("excluded_cases", []) if e["paths"] == s["paths"]]
+    if weak:
+        click.echo(f"note: {len(weak)} case(s) fail on the unmutated product at its own level (Holm over its checks, "
+                   f"{s['paths']} paths) and cannot detect its mutants: "
+                   + ", ".join(f"{e['product']}/{e['case']}" for e in weak))
     hidden = sum(1 for r in report.results if _hidden(r))
     if hidden:
         click.echo(f"{hidden} equivalent mutant(s) pay differently off the check points: the checks never vary "
@@ -177,7 +192,8 @@ def command(paths_in: tuple[str, ...], paths: int, quick_paths: int | None, equi
     if report.false_alarms:
         click.echo("")
         click.echo(f"FALSE ALARM: {len(report.false_alarms)} check(s) of the UNMUTATED products do not pass at "
-                   f"{s['paths']} paths; their cases cannot catch mutants and the products need a look:")
+                   f"{s['paths']} paths (Holm over every check of the run, as 'limitcase check'); the products "
+                   "need a look:")
         for a in report.false_alarms:
             click.echo(f"  {a['product']}/{a['case']}: {a['verdict']} {a['message']}")
     if json_path:
