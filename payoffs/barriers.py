@@ -60,8 +60,8 @@ REBATE = 3.0
 """The rebate of the checks that pay one (the rebate of Haug's barrier table)."""
 
 FAR_STRIKE = 1e4
-"""A call strike no simulated price reaches (100 times the spot): the option is then worth
-its rebate alone (up to the closed form's own value at that strike, about 1e-60)."""
+"""A call strike no simulated price reaches (100 times the spot), so that a knock-out call
+pays its rebate alone; the closed form is evaluated at the same strike, nothing is neglected."""
 
 HAUG_SCENARIO = BlackScholes(spot=SPOT, rate=0.08, dividend=0.04, vol=0.25)
 """S = 100, r = 0.08, b = r - q = 0.04, sigma = 0.25: the setting of the standard barrier
@@ -138,13 +138,15 @@ HIT_TIMING_REASON = "rebate paid at the end of the simulation interval in which 
 @dataclass(frozen=True)
 class MovingAway(Relation):
     """A knock-out is worth more, a knock-in less, as the barrier moves away from the
-    spot (10 up for an up barrier, 10 down for a down one), on every path; rebate 0."""
+    spot (10 up for an up barrier, 10 down for a down one), on every path, without a rebate
+    (a rebate larger than the vanilla would make a touch worth more)."""
 
     def checks(self, product: Product, model) -> list[Check]:
         worth_more = product.out
         direction = +1 if product.up == worth_more else -1
         name = f"worth_{'more' if worth_more else 'less'}_as_barrier_moves_away"
-        return Monotone("barrier", direction, to=_further, pathwise=True, name=name).checks(product, model)
+        monotone = Monotone("barrier", direction, to=_further, pathwise=True, name=name)
+        return monotone.checks(product.replace(rebate=0.0), model)
 
 
 # --- declarations shared by every barrier option ----------------------------------------
