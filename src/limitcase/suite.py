@@ -282,8 +282,8 @@ def _task_blocks(args: tuple[int, int, Setup, int, int, int]) -> tuple[int, list
 class _Inline:
     workers = 1
 
-    def map(self, fn: Callable, tasks: list) -> list:
-        return [fn(t) for t in tasks]
+    def map(self, fn: Callable, tasks: list) -> Any:
+        return (fn(t) for t in tasks)
 
     def close(self) -> None:
         pass
@@ -301,11 +301,12 @@ class _Forked:
         self.pool = ProcessPoolExecutor(max_workers=workers, mp_context=multiprocessing.get_context("fork"),
                                         initializer=_mark_worker)
 
-    def map(self, fn: Callable, tasks: list) -> list:
+    def map(self, fn: Callable, tasks: list) -> Any:
+        """Results in task order, each as soon as it and those before it are in."""
         from concurrent.futures.process import BrokenProcessPool
 
         try:
-            return list(self.pool.map(fn, tasks))
+            yield from self.pool.map(fn, tasks)
         except BrokenProcessPool as exc:
             raise RuntimeError(
                 f"a worker process died during the run ({exc}); re-run with workers=1 (--workers 1) "
@@ -415,6 +416,13 @@ def _execute(
             if not active:
                 break
             todo = [(it, it.acc.next_block, Case.blocks_for(it.paths)) for it in active]
+            for it, a, b in todo:
+                if a >= b:  # nothing left to add (cannot happen with whole-block rounds; never loop on it)
+                    it.status = it.status or "budget"
+                    finish(it)
+            todo = [(it, a, b) for it, a, b in todo if a < b]
+            if not todo:
+                continue
             blocks = sum(b - a for _, a, b in todo)
             per_task = max(1, min(64, -(-blocks // (4 * ex.workers)))) if ex.workers > 1 else 1 << 30
             tasks = []
@@ -423,23 +431,25 @@ def _execute(
                     tasks.append((run_id, it.index, it.setup, lo, hi, it.paths))
             tasks.sort(key=lambda t: -(t[4] - t[3]) * len(run.items[t[1]].case.grid))  # longest first
             results: dict[int, list[BlockResult]] = {}
+            pending: dict[int, int] = {}
+            for t in tasks:
+                pending[t[1]] = pending.get(t[1], 0) + 1
             for i, res, err in ex.map(_task_blocks, tasks):
                 item = run.items[i]
                 if err is not None:
                     item.error = item.error or err
                 elif item.error is None:
                     results.setdefault(i, []).extend(res or [])
-            for it in active:
-                if it.error is not None:
-                    finish(it)
-                    continue
-                for r in sorted(results.get(it.index, []), key=lambda r: r.block):
-                    it.acc.add(r)
-            active = [it for it in active if not it.done]
+                pending[i] -= 1
+                if pending[i] == 0:  # all of this check's blocks are in: combine them, in order
+                    if item.error is None:
+                        for r in sorted(results.pop(i, []), key=lambda r: r.block):
+                            item.acc.add(r)
+                    if item.error is not None or precision is None:
+                        finish(item)
             if precision is None:
-                for it in active:
-                    finish(it)
                 continue
+            active = [it for it in active if not it.done]
             m = family or sum(1 for it in run.items if it.error is None)
             for it in active:
                 _next_round(it, precision, alpha, m, max_paths)
