@@ -25,8 +25,10 @@ from __future__ import annotations
 import math
 
 import numpy as np
+import sympy as sp
 
 from limitcase import Bound, Convex, Monotone, NoReference, Param, ParamError, Product, Reduction
+from limitcase.symbolic import formula_symbols
 from limitcase.references import geometric_asian, margrabe_exchange
 
 from ._common import PathIdentity, bs_inputs, own_closed_form
@@ -174,6 +176,11 @@ class GeometricAsianCall(_FixedStrike):
     def payoff(self, obs):
         return np.maximum(np.exp(np.log(obs.s).mean(axis=1)) - self.strike, 0.0)
 
+
+    def formula(self):
+        x = formula_symbols(self)
+        return sp.Max(sp.Mul(*x.S) ** sp.Rational(1, len(x.S)) - x.strike, 0)
+
     def reference(self, model):
         spot, rate, dividend, vol = bs_inputs(model, self)
         return geometric_asian(spot, self.strike, self.dates(), rate, dividend, vol, "call")
@@ -252,6 +259,11 @@ class ArithmeticAsianCall(_FixedStrike):
 
     def payoff(self, obs):
         return np.maximum(obs.s.mean(axis=1) - self.strike, 0.0)
+
+
+    def formula(self):
+        x = formula_symbols(self)
+        return sp.Max(sp.Add(*x.S) / len(x.S) - x.strike, 0)
 
     def control_variates(self, model):
         twin = GeometricAsianCall(strike=self.strike, **self.schedule())

@@ -37,7 +37,9 @@ from dataclasses import dataclass
 from typing import ClassVar
 
 import numpy as np
+import sympy as sp
 
+from limitcase.symbolic import formula_symbols
 from limitcase import BlackScholes, Bound, Cashflows, Monotone, Param, Product, Reduction
 from limitcase.errors import NoReference
 from limitcase.reduce import Check, Relation
@@ -284,6 +286,16 @@ class _Discrete(_Barrier):
 
     def dates(self) -> np.ndarray:
         return even_dates(self.maturity, self.monitoring)
+
+    def formula(self):
+        """The amount paid (timing aside): the vanilla if the barrier is never touched
+        today or on a date (knock-out), else the rebate; the other way round for a knock-in."""
+        x = formula_symbols(self)
+        stay = sp.And(*[(s < x.barrier) if self.up else (s > x.barrier) for s in (x.S_0, *x.S)])
+        vanilla = sp.Max(x.S_T - x.strike, 0) if self.call else sp.Max(x.strike - x.S_T, 0)
+        if self.out:
+            return sp.Piecewise((vanilla, stay), (x.rebate, True))
+        return sp.Piecewise((x.rebate, stay), (vanilla, True))
 
     def reference(self, model):
         raise NoReference(

@@ -10,7 +10,9 @@ max(S - K, 0) = S 1{S > K} - K 1{S > K}. Closed forms: Rubinstein and Reiner (19
 from __future__ import annotations
 
 import numpy as np
+import sympy as sp
 
+from limitcase.symbolic import formula_symbols
 from limitcase import Bound, Monotone, Param, Product, Reduction
 from limitcase.references import asset_or_nothing, cash_or_nothing, gap_option
 
@@ -74,6 +76,10 @@ class CashOrNothingCall(_Digital):
 
     def payoff(self, obs):
         return np.where(obs.s[:, -1] > self.strike, self.cash, 0.0)
+
+    def formula(self):
+        x = formula_symbols(self)
+        return sp.Piecewise((x.cash, x.S_T > x.strike), (0, True))
 
     def reference(self, model):
         spot, rate, dividend, vol = bs_inputs(model, self)

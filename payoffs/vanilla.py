@@ -11,8 +11,10 @@ from __future__ import annotations
 import math
 
 import numpy as np
+import sympy as sp
 
 from limitcase import Bound, Convex, Monotone, Param, Product, Reduction
+from limitcase.symbolic import formula_symbols
 from limitcase.references import black_scholes, prepaid_forward
 
 from ._common import ROUNDING_REASON, PathIdentity, bs_inputs, market, own_closed_form, rounding
@@ -165,6 +167,11 @@ class EuropeanCall(Product):
     def payoff(self, obs):
         return np.maximum(obs.s[:, -1] - self.strike, 0.0)
 
+
+    def formula(self):
+        x = formula_symbols(self)
+        return sp.Max(x.S_T - x.strike, 0)
+
     def reference(self, model):
         spot, rate, dividend, vol = bs_inputs(model, self)
         return black_scholes(spot, self.strike, self.maturity, rate, dividend, vol, "call")
@@ -210,6 +217,11 @@ class EuropeanPut(Product):
 
     def payoff(self, obs):
         return np.maximum(self.strike - obs.s[:, -1], 0.0)
+
+
+    def formula(self):
+        x = formula_symbols(self)
+        return sp.Max(x.strike - x.S_T, 0)
 
     def reference(self, model):
         spot, rate, dividend, vol = bs_inputs(model, self)
