@@ -86,12 +86,20 @@ def test_a_wrong_base_case_is_shown_to_differ():
 
 
 def test_missing_formula_is_not_applicable():
+    from limitcase_payoffs.asians import GeometricAsianPut
+
+    red = GeometricAsianPut.reductions[1]
+    rec = recognise(GeometricAsianPut(), red)
+    assert rec.status == "n/a"
+    assert cross_check(GeometricAsianPut()).status == "none"
+
+
+def test_catalogue_formulas_agree_and_recognise_their_base_case():
     from limitcase_payoffs.asians import ArithmeticAsianCall
 
-    red = ArithmeticAsianCall.reductions[0]
-    rec = recognise(ArithmeticAsianCall(), red)
-    assert rec.status == "n/a"
-    assert cross_check(ArithmeticAsianCall()).status == "none"
+    assert cross_check(ArithmeticAsianCall()).status == "agree"
+    one_fixing = next(r for r in ArithmeticAsianCall.reductions if r.name == "one_fixing")
+    assert recognise(ArithmeticAsianCall(), one_fixing).status == "equal"
 
 
 def test_unknown_symbol_and_non_sympy_formula_are_errors():
