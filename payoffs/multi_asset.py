@@ -48,7 +48,7 @@ RATE = 0.05
 _SPOTS = (100.0, 95.0, 105.0, 90.0, 110.0)
 _VOLS = (0.25, 0.30, 0.20, 0.35, 0.15)
 _DIVIDENDS = (0.01, 0.02, 0.0, 0.03, 0.015)
-_DECAY = 0.5  # correlation between assets i and j in the scenario: _DECAY ** |i - j|
+_CORRELATION_DECAY = 0.5  # correlation between assets i and j in the scenario: 0.5 ** |i - j|
 
 
 def correlated_market(n: int) -> MultiBlackScholes:
@@ -65,7 +65,7 @@ def correlated_market(n: int) -> MultiBlackScholes:
         spots=pick(_SPOTS),
         vols=pick(_VOLS),
         dividends=pick(_DIVIDENDS),
-        correlation=_DECAY ** np.abs(i[:, None] - i[None, :]),
+        correlation=_CORRELATION_DECAY ** np.abs(i[:, None] - i[None, :]),
         rate=RATE,
     )
 
@@ -111,7 +111,8 @@ def combined_asset(spot_of: Callable[[Product, np.ndarray], float]) -> Callable[
     return mapping
 
 
-# Model changes the reductions use, all taken from the scenario so they hold on any model.
+# Model changes of the reductions, from the scenario's numbers: each sets every number its limit
+# depends on, so it holds whatever model the checks start from.
 ONE_ASSET = correlated_market(1).params()
 COMONOTONE = {"vols": _VOLS[0], "dividends": _DIVIDENDS[0], "correlation": 1.0}
 RISKLESS_SECOND = {"spots": _SPOTS[:2], "vols": (_VOLS[0], 0.0), "dividends": (_DIVIDENDS[0], RATE), "rate": RATE}
