@@ -144,12 +144,21 @@ def _correlation_factor(c: np.ndarray, d: int) -> np.ndarray:
         raise ModelError(f"correlation has shape {c.shape}; expected ({d}, {d}) for {d} assets")
     if not np.all(np.isfinite(c)):
         raise ModelError("correlation has non-finite entries")
-    if not np.allclose(c, c.T, atol=1e-12):
-        raise ModelError("correlation matrix is not symmetric")
+    asym = np.abs(c - c.T)
+    if asym.max() > 1e-12:
+        i, j = np.unravel_index(np.argmax(asym), c.shape)
+        raise ModelError(
+            f"correlation matrix is not symmetric: entry [{i}, {j}] = {c[i, j]!r} but [{j}, {i}] = {c[j, i]!r}; "
+            "give each pair's correlation once, the same both ways"
+        )
     if not np.allclose(np.diag(c), 1.0, atol=1e-12):
-        raise ModelError(f"correlation matrix must have a unit diagonal; got {np.diag(c).tolist()!r}")
+        raise ModelError(
+            f"correlation matrix must have a unit diagonal; got {np.diag(c).tolist()!r} "
+            "(an asset is perfectly correlated with itself; pass correlations, not covariances)"
+        )
     if np.any(np.abs(c) > 1 + 1e-12):
-        raise ModelError("correlation entries must lie in [-1, 1]")
+        i, j = np.unravel_index(np.argmax(np.abs(c)), c.shape)
+        raise ModelError(f"correlation entry [{i}, {j}] = {c[i, j]!r} is outside [-1, 1]")
     w, v = np.linalg.eigh(c)
     if w.min() < -1e-10:
         raise ModelError(
