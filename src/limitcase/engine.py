@@ -34,6 +34,8 @@ with ``beta`` from pilot paths of their own (role 3), independent of the pricing
 Section 4.1; the pilot removes the O(1/n) bias of a coefficient fitted on the same paths).
 A control whose "exact" price is wrong biases the estimate by ``beta`` times its error: a
 check that fails only with controls points at the control (re-run with ``--method plain``).
+With Sobol points, controls apply to a statistic only when they explain at least
+:data:`SOBOL_CONTROL_R2` of its pilot variance (decided on the pilot, so still unbiased).
 """
 
 from __future__ import annotations
@@ -71,6 +73,13 @@ DEFAULT_BATCH = BLOCK
 DEFAULT_REGRESSION_PATHS = 1 << 16
 CONTROL_PILOT_BLOCKS = 2
 """Blocks of pilot paths (role 3) on which control-variate coefficients are estimated."""
+SOBOL_CONTROL_R2 = 0.9
+"""With Sobol points, controls are applied to a statistic only when they explain at least
+this share of its variance on the pilot. Quasi-random points already integrate the smooth
+part a weak control would remove, and the control's own quasi-random error can then
+outweigh its gain (measured, benchmarks/efficiency.py --others: a cash-or-nothing call,
+1.7 times the variance of Sobol points alone; the geometric control of an arithmetic Asian,
+R^2 = 0.999, divides it by 30)."""
 
 
 @dataclass(frozen=True, slots=True)
@@ -141,6 +150,7 @@ class Joint:
     full_cov: np.ndarray | None = None  # legs + controls, scaled like ``cov``
     pilot_cov: np.ndarray | None = None  # legs + controls, per path, on the pilot
     notes: tuple[str, ...] = ()
+    control_min_r2: float = 0.0
 
     def beta(self, weights: Sequence[float]) -> np.ndarray:
         """Control-variate coefficients of ``sum(w_i * price_i)``, from the pilot paths:
@@ -153,16 +163,45 @@ class Joint:
         pcy = self.pilot_cov[k:, :k] @ w
         return np.linalg.pinv(pcc, rcond=1e-10, hermitian=True) @ pcy
 
+    def pilot_r2(self, weights: Sequence[float]) -> float:
+        """The share of the pilot variance of ``sum(w_i * V_i)`` the controls explain."""
+        if self.pilot_cov is None:
+            return 0.0
+        w = np.asarray(weights, dtype=float)
+        k = len(self.mean)
+        var_y = float(w @ self.pilot_cov[:k, :k] @ w)
+        if not var_y > 0.0:
+            return 0.0
+        explained = float((self.pilot_cov[k:, :k] @ w) @ self.beta(w))
+        return min(max(explained / var_y, 0.0), 1.0)
+
+    def uses_controls(self, weights: Sequence[float]) -> bool:
+        """Whether :meth:`estimate` applies the controls to this statistic: always when the
+        paths are pseudo-random; with Sobol points only when the controls explain at least
+        ``control_min_r2`` of its variance on the pilot (a decision on independent paths,
+        which keeps the estimate unbiased)."""
+        if self.control_mean is None or self.full_cov is None or not len(self.controls):
+            return False
+        return self.control_min_r2 <= 0.0 or self.pilot_r2(weights) >= self.control_min_r2
+
+    def method_for(self, weights: Sequence[float]) -> str:
+        """The method behind :meth:`estimate` of this statistic (``control+...`` only when
+        the controls are applied to it)."""
+        if self.controls and not self.uses_controls(weights):
+            base = self.method.removeprefix("control+")
+            return "plain" if base == "control" else base
+        return self.method
+
     def estimate(self, weights: Sequence[float], *, controls: bool = True) -> Estimate:
         """The estimate of ``sum(w_i * price_i)`` with its standard error (covariances
         included: common random numbers make differences precise), control variates applied
-        when the run has them and ``controls`` is true."""
+        when the run has them, ``controls`` is true and :meth:`uses_controls` says so."""
         w = np.asarray(weights, dtype=float)
         if w.shape != self.mean.shape:
             raise ParamError(f"weights of length {w.size} for {self.mean.size} legs; give one weight per leg")
-        if controls and self.control_mean is not None and self.full_cov is not None and len(self.controls):
+        if controls and self.uses_controls(w):
             b = self.beta(w)
-            assert self.control_exact is not None
+            assert self.control_exact is not None and self.control_mean is not None and self.full_cov is not None
             value = float(w @ self.mean - b @ (self.control_mean - self.control_exact))
             v = np.concatenate([w, -b])
             var = float(v @ self.full_cov @ v)
@@ -627,6 +666,7 @@ class Accumulator:
                 control_mean=m.mean[k:].copy(),
                 control_exact=np.array([v for _, v in self.case.controls]),
                 full_cov=full, pilot_cov=setup.pilot_cov, notes=self.case.notes,
+                control_min_r2=SOBOL_CONTROL_R2 if self.case.sampler.method == "sobol" else 0.0,
             )
         return Joint(paths=m.paths, mean=m.mean, cov=full, rules=rules, method=self.case.method,
                      dof=m.dof, notes=self.case.notes)

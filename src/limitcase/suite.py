@@ -192,14 +192,14 @@ def decide(check: Check, joint: Joint, seed: int) -> Outcome:
         message="; ".join(messages),
         paths=joint.paths,
         seed=seed,
-        method=joint.method,
+        method=joint.method_for(check.weights),
         target_source=check.target_source,
         note=check.note,
         legs=tuple(p_.label() for p_ in check.legs),
         pathwise_ok=pathwise_ok,
         dof=dof,
         scale=scale,
-        controls=joint.controls,
+        controls=joint.controls if joint.uses_controls(check.weights) else (),
     )
 
 

@@ -17,7 +17,7 @@ from limitcase.suite import run_checks
 from limitcase.verdict import POWER, detectable_bias, holm, p_value
 from limitcase_payoffs.vanilla import EuropeanCall
 
-from .conftest import CALL_REFERENCE, call_check
+from .conftest import CALL_REFERENCE, CallWithTwin, call_check
 
 RUNS = 200
 ALPHA = 0.05
@@ -49,8 +49,9 @@ def _rejections(checks, runs=RUNS, **kw):
 @pytest.mark.parametrize("method, runs", [("plain", RUNS), ("control+sobol", 100)])
 def test_false_alarm_rate_is_nominal(method, runs):
     """(Sobol runs: 100, each seed builds its 32 scrambles; their error calibration is also
-    tested over seeds in test_engine_unbiased.py.)"""
-    fails = _rejections([call_check()], runs=runs, paths=BLOCK, method=method)
+    tested over seeds in test_engine_unbiased.py. The call carries a strong control, so
+    control variates and Sobol points act together.)"""
+    fails = _rejections([call_check(product=CallWithTwin())], runs=runs, paths=BLOCK, method=method)
     lo, hi = _interval(ALPHA, runs)
     assert lo <= fails <= hi, (fails, lo, hi)
 
@@ -115,5 +116,6 @@ def test_json_record_carries_the_decision(tmp_path):
         d = o.to_dict()
         for key in ("p_value", "p_adjusted", "detectable_bias", "detectable_relative", "method", "dof", "stderr"):
             assert d[key] is not None, key
-        assert d["method"] == "control+sobol" and d["dof"] == 31
+        assert d["method"] == "sobol" and d["dof"] == 31  # the underlying explains < 90%: no control
+        assert d["controls"] == []
     assert r.outcomes[1].verdict == "fail" and r.outcomes[0].verdict == "pass"

@@ -19,7 +19,7 @@ from limitcase import BLOCK, Cashflows, MultiBlackScholes, evaluate, price
 from limitcase.sampling import BrownianBridge, SamplingWarning
 from limitcase_payoffs.vanilla import EuropeanCall
 
-from .conftest import CALL_REFERENCE, MODEL, geometric_asian_call
+from .conftest import CALL_REFERENCE, MODEL, CallWithTwin, geometric_asian_call
 
 SEEDS = range(24)
 LEVEL = 1e-3
@@ -61,7 +61,12 @@ def _assert_calibrated(u):
 
 @pytest.mark.parametrize("method", ["plain", "antithetic", "sobol", "control", "control+antithetic", "control+sobol"])
 def test_european_call_unbiased_with_honest_errors(method):
-    _assert_calibrated(_standardised(EuropeanCall(), CALL_REFERENCE, method, BLOCK))
+    """With a control explaining over 99% of the variance (the call struck 1% higher), so
+    that the control methods apply it under every source of normals."""
+    product = CallWithTwin()
+    if "control" in method:
+        assert evaluate([product], MODEL, paths=BLOCK, seed=0, method=method).uses_controls([1.0])
+    _assert_calibrated(_standardised(product, CALL_REFERENCE, method, BLOCK))
 
 
 @pytest.mark.parametrize("method", ["antithetic", "sobol", "control+sobol"])
@@ -140,6 +145,21 @@ def test_control_coefficient_comes_from_the_pilot():
     assert e.value == pytest.approx(xbar[0] - beta[0] * (xbar[1] - j.control_exact[0]), rel=1e-14)
     raw = j.estimate([1.0], controls=False)
     assert e.stderr < raw.stderr / 2
+
+
+def test_controls_under_sobol_only_when_they_explain_most_of_the_variance():
+    """Under Sobol points a control applies only with a pilot R^2 of at least 0.9: the
+    geometric-Asian control of an arithmetic Asian does, the underlying of a call does not."""
+    from limitcase.engine import SOBOL_CONTROL_R2
+    from limitcase_payoffs.asians import ArithmeticAsianCall
+
+    asian = evaluate([ArithmeticAsianCall(fixings=52)], MODEL, paths=BLOCK, seed=1, method="control+sobol")
+    assert asian.pilot_r2([1.0]) > 0.99 and asian.method_for([1.0]) == "control+sobol"
+    call = evaluate([EuropeanCall()], MODEL, paths=BLOCK, seed=1, method="control+sobol")
+    assert call.pilot_r2([1.0]) < SOBOL_CONTROL_R2 and call.method_for([1.0]) == "sobol"
+    assert call.estimate([1.0]).value == call.estimate([1.0], controls=False).value
+    plain = evaluate([EuropeanCall()], MODEL, paths=BLOCK, seed=1, method="control")
+    assert plain.method_for([1.0]) == "control" and plain.estimate([1.0]).stderr < plain.estimate([1.0], controls=False).stderr
 
 
 def test_sobol_falls_back_with_a_warning_for_many_normals():
