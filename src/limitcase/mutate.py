@@ -49,14 +49,33 @@ comparing the two on every path. Dates and exercise dates must agree too. Otherw
 mutant is real, even if it differs only on an edge path (a path sitting exactly on the
 barrier): such survivors are flagged ``edge_only``.
 
-Budget
-------
+Equivalent at the check points only
+-----------------------------------
+An equivalent mutant is also compared at one point no check uses (every real parameter up
+10%, every count up one: :func:`probe_point`). If it pays differently there, it is still
+equivalent by the definition above (no check can see it) and still not scored, but it is
+flagged with advice: the checks sit only where that code is invisible (every check with
+the strike at the spot, say).
+
+Budget and verdicts
+-------------------
 Mutants run in parallel (a fork-based process pool). The equivalence test runs first (it
 is cheap, and spares dead-code mutants the checks), then the checks with a small path
 budget (``quick_paths``); only the survivors run again with the full budget (``paths``)
-before being declared survivors. The original product's checks run at both budgets: a
-case the original fails cannot catch anything, and an original that fails at the full
-budget is a false alarm, reported as such.
+before being declared survivors. Checks are sampled as ``limitcase check`` samples them
+(``method="auto"`` by default), and a mutant is judged as ``limitcase check`` judges one
+product: Holm over that product's checks. Mutant and original share every random stream,
+so a mutant is caught by its effect, not by the luck of the draw. The original products'
+checks run at both budgets: a case the original fails at its own level cannot catch its
+mutants (it is set aside), and a case that fails under Holm over the whole run, as
+``limitcase check`` would report it on the same products, is a false alarm.
+
+Limits
+------
+A mutant that loops for ever or exhausts memory is not stopped (there is no per-mutant
+timeout); checks of *other* products that use this one as a leg are not run on its
+mutants (only its own declared checks count, a conservative score); ``run_mutation`` is
+not re-entrant (the worker registry is module state).
 """
 
 from __future__ import annotations
@@ -1783,7 +1802,7 @@ def run_mutation(
 # what check would catch a survivor
 
 
-_BARRIER_WORDS = ("barrier", "knock", "trigger_level", "level", "autocall", "call_level")
+_BARRIER_WORDS = ("barrier", "knock", "level", "autocall", "protection")
 _COUNT_WORDS = ("fixing", "monitoring", "exercise", "steps", "dates", "periods", "observations")
 
 

@@ -113,3 +113,29 @@ def test_check_points_are_the_legs_that_are_the_product():
     pts = check_points(FlagCall)
     assert [p.label for p in pts] == ["FlagCall", "FlagCall(strike=0)"]
     assert all(type(p.product) is FlagCall for p in pts)
+
+
+def test_run_in_one_process_scores_a_thin_product():
+    """FlagCall declares only its zero-strike limit. At strike 0, ``s - K`` and ``s + K`` pay
+    alike, so that sign mutant survives (it differs at the defaults, which no check prices
+    against a trusted value); mutants of the put branch are equivalent (dead code)."""
+    from limitcase.mutate import product_scores, run_mutation
+
+    report = run_mutation([FlagCall], paths=4000, quick_paths=2000, equivalence_paths=4096, workers=1)
+    assert report.false_alarms == []
+    sign = next(m for m in report.results if m.operator == "sign" and "s + self.strike" in m.diff)
+    assert sign.status == "survived" and sign.paths == 4000 and not sign.edge_only
+    assert "FlagCall(strike=0)" in sign.suggestion and "strike" in sign.suggestion
+    def added(m) -> str:
+        return next(x[1:] for x in m.diff.splitlines() if x.startswith("+") and not x.startswith("+++"))
+
+    call_branch = "        return np.maximum(s - self.strike, 0.0) if self.call else "
+    dead = [m for m in report.results
+            if added(m).startswith(call_branch) and "np.maximum(self.strike - s, 0.0)" not in added(m)]
+    assert len(dead) >= 3 and all(m.status == "equivalent" for m in dead)
+    caught = [m for m in report.results if m.detected]
+    assert caught  # e.g. s - K made K - s pays the put at strike 0: never the forward
+    score = product_scores(report)["FlagCall"]
+    c = report.counts()
+    assert score.score == (c["caught"] + c["error"]) / (c["caught"] + c["error"] + c["survived"])
+    assert len({m.id for m in report.results}) == len(report.results)
