@@ -192,8 +192,8 @@ def command(paths_in: tuple[str, ...], paths: int, quick_paths: int | None, equi
     if report.false_alarms:
         click.echo("")
         click.echo(f"FALSE ALARM: {len(report.false_alarms)} check(s) of the UNMUTATED products do not pass at "
-                   f"{s['paths']} paths (Holm over every check of the run, as 'limitcase check'); the products "
-                   "need a look:")
+                   f"{s['paths']} paths (Holm over every check of the run, as 'limitcase check'): a false alarm "
+                   "of the checks or a bug in the product itself; either way it needs a look:")
         for a in report.false_alarms:
             click.echo(f"  {a['product']}/{a['case']}: {a['verdict']} {a['message']}")
     if json_path:
