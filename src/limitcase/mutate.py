@@ -1565,13 +1565,14 @@ def _detection(outcomes: list[Outcome], crash: str, baseline: Sequence[str]) -> 
     return "survived", [], ""
 
 
-def _task_original(index: int, paths: int) -> tuple[int, int, list[Outcome]]:
+def _task_original(index: int, paths: int) -> tuple[int, int, list[Outcome], float]:
     s = _REGISTRY["settings"]
     cls = _REGISTRY["products"][index]
+    t0 = time.process_time()
     outcomes, crash = _safe_run(cls, paths, s["seed"], s["alpha"], s["method"])
     if crash:
-        return index, paths, [Outcome(product=cls.__name__, case="(run)", kind="run", verdict="error", message=crash)]
-    return index, paths, outcomes
+        outcomes = [Outcome(product=cls.__name__, case="(run)", kind="run", verdict="error", message=crash)]
+    return index, paths, outcomes, time.process_time() - t0
 
 
 def _safe_equivalence(mutant: Mutant, paths: int, seed: int, stop_early: bool) -> Equivalence:
@@ -1584,10 +1585,13 @@ def _safe_equivalence(mutant: Mutant, paths: int, seed: int, stop_early: bool) -
 def _task_mutant(mid: int, stage: str, baseline: Sequence[str]) -> dict:
     """One mutant's stage: ``"first"`` (equivalence test, stopping at the first difference,
     then the checks with the quick budget) or ``"full"`` (the checks with the full budget,
-    then, for a survivor, the complete comparison at every point for the suggestion)."""
+    then, for a survivor, the complete comparison at every point for the suggestion).
+    The result carries the CPU seconds spent comparing (``cpu_equivalence``) and checking
+    (``cpu_checks``)."""
     s = _REGISTRY["settings"]
     mutant: Mutant = _REGISTRY["mutants"][mid]
-    out: dict[str, Any] = {"mid": mid, "stage": stage}
+    out: dict[str, Any] = {"mid": mid, "stage": stage, "cpu_equivalence": 0.0, "cpu_checks": 0.0}
+    t0 = time.process_time()
     if stage == "first":
         eq = _safe_equivalence(mutant, s["equivalence_paths"], s["seed"], stop_early=True)
         out["equivalence"] = eq
@@ -1596,16 +1600,22 @@ def _task_mutant(mid: int, stage: str, baseline: Sequence[str]) -> dict:
                 off = probe_difference(mutant.cls, mutant.original, paths=s["equivalence_paths"], seed=s["seed"])
             except Exception as exc:
                 off = PointDifference("(probe)", note=f"{type(exc).__name__}: {exc}")
-            out.update(status="equivalent", paths=0, cases=[], message="", probe=off)
+            out.update(status="equivalent", paths=0, cases=[], message="", probe=off,
+                       cpu_equivalence=time.process_time() - t0)
             return out
         paths = s["quick_paths"]
     else:
         paths = s["paths"]
+    t1 = time.process_time()
+    out["cpu_equivalence"] = t1 - t0
     outcomes, crash = _safe_run(mutant.cls, paths, s["seed"], s["alpha"], s["method"])
     status, cases, message = _detection(outcomes, crash, baseline)
     out.update(status=status, paths=paths, cases=cases, message=message)
+    t2 = time.process_time()
+    out["cpu_checks"] = t2 - t1
     if status == "survived" and (stage == "full" or s["paths"] <= s["quick_paths"]):
         out["equivalence"] = _safe_equivalence(mutant, s["equivalence_paths"], s["seed"], stop_early=False)
+        out["cpu_equivalence"] += time.process_time() - t2
     return out
 
 
@@ -1695,6 +1705,7 @@ def run_mutation(
     if not isinstance(workers, int) or workers < 1:
         raise ParamError(f"workers={workers!r} must be an integer >= 1")
     start = time.monotonic()
+    cpu0 = time.process_time()
     mutants: list[Mutant] = []
     discarded: list[Discarded] = []
     for cls in products:
@@ -1721,12 +1732,15 @@ def run_mutation(
             progress(done[0], total + extra)
 
     baselines: dict[tuple[int, int], list[Outcome]] = {}
+    cpu = {"making_mutants": time.process_time() - cpu0, "originals": 0.0, "equivalence": 0.0,
+           "checks_first_pass": 0.0, "checks_full_budget": 0.0}
     first: dict[int, dict] = {}
     final: dict[int, dict] = {}
     pool = _Pool(min(workers, max(1, len(mutants) + len(product_list))))
     try:
-        def got_original(res: tuple[int, int, list[Outcome]]) -> None:
+        def got_original(res: tuple[int, int, list[Outcome], float]) -> None:
             baselines[(res[0], res[1])] = res[2]
+            cpu["originals"] += res[3]
             tick()
 
         pool.map(_task_original, [(i, p) for i in range(len(product_list)) for p in (quick_paths, paths)],
@@ -1737,6 +1751,8 @@ def run_mutation(
 
         def got_first(res: dict) -> None:
             first[res["mid"]] = res
+            cpu["equivalence"] += res["cpu_equivalence"]
+            cpu["checks_first_pass"] += res["cpu_checks"]
             tick()
 
         pool.map(_task_mutant, [(k, "first", verdicts(m.original, quick_paths)) for k, m in enumerate(mutants)],
@@ -1746,6 +1762,8 @@ def run_mutation(
 
         def got_full(res: dict) -> None:
             final[res["mid"]] = res
+            cpu["equivalence"] += res["cpu_equivalence"]
+            cpu["checks_full_budget"] += res["cpu_checks"]
             tick()
 
         pool.map(_task_mutant, [(k, "full", verdicts(mutants[k].original, paths)) for k in sorted(again)], got_full)
@@ -1791,6 +1809,7 @@ def run_mutation(
                     excluded.append({"product": cls.__name__, "case": o.case, "paths": budget,
                                      "verdict": o.verdict, "message": o.message})
     settings["excluded_cases"] = excluded
+    settings["cpu_seconds"] = {k: round(v, 2) for k, v in cpu.items()}
     return MutationReport(
         results=results, discarded=discarded, originals=originals, false_alarms=false_alarms, settings=settings,
         runtime=time.monotonic() - start,

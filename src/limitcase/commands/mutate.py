@@ -180,6 +180,9 @@ def command(paths_in: tuple[str, ...], paths: int, quick_paths: int | None, equi
         f"{report.runtime:.1f} s on {s['workers']} worker(s) (first pass {s['quick_paths']} paths, "
         f"survivors {s['paths']} paths, method {s['method']}, seed {s['seed']})"
     )
+    cpu = s.get("cpu_seconds")
+    if cpu:
+        click.echo("CPU seconds: " + ", ".join(f"{k.replace('_', ' ')} {v:.1f}" for k, v in cpu.items()))
     weak = [e for e in s.get("excluded_cases", []) if e["paths"] == s["paths"]]
     if weak:
         click.echo(f"note: {len(weak)} case(s) fail on the unmutated product at its own level (Holm over its checks, "
