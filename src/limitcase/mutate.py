@@ -81,6 +81,7 @@ not re-entrant (the worker registry is module state).
 from __future__ import annotations
 
 import ast
+import collections
 import concurrent.futures
 import copy
 import difflib
@@ -1629,14 +1630,22 @@ class _Pool:
             ctx = multiprocessing.get_context("fork")
             self.executor = concurrent.futures.ProcessPoolExecutor(max_workers=workers, mp_context=ctx)
 
-    def map(self, fn: Callable, args: Sequence[tuple], on_done: Callable[[Any], None]) -> None:
+    def run(self, initial: Sequence[tuple[Callable, tuple]],
+            on_done: Callable[[Any], list[tuple[Callable, tuple]]]) -> None:
+        """Run ``initial`` tasks ``(fn, args)``; each result goes to ``on_done``, which may
+        return further tasks (submitted at once, so no worker waits for a whole phase)."""
         if self.executor is None:
-            for a in args:
-                on_done(fn(*a))
+            queue = collections.deque(initial)
+            while queue:
+                fn, args = queue.popleft()
+                queue.extend(on_done(fn(*args)))
             return
-        futures = [self.executor.submit(fn, *a) for a in args]
-        for f in concurrent.futures.as_completed(futures):
-            on_done(f.result())
+        pending = {self.executor.submit(fn, *args) for fn, args in initial}
+        while pending:
+            finished, pending = concurrent.futures.wait(pending, return_when=concurrent.futures.FIRST_COMPLETED)
+            for f in finished:
+                for fn, args in on_done(f.result()):
+                    pending.add(self.executor.submit(fn, *args))
 
     def close(self) -> None:
         if self.executor is not None:
@@ -1723,50 +1732,61 @@ def run_mutation(
     _REGISTRY.clear()
     _REGISTRY.update(products=product_list, mutants=mutants, settings=settings)
     index_of = {cls: i for i, cls in enumerate(product_list)}
-    total = 2 * len(product_list) + len(mutants)
+    budgets = tuple(dict.fromkeys((quick_paths, paths)))
+    by_product: dict[int, list[int]] = collections.defaultdict(list)
+    for k, m in enumerate(mutants):
+        by_product[index_of[m.original]].append(k)
+    total = [len(budgets) * len(product_list) + len(mutants)]
     done = [0]
-
-    def tick(extra: int = 0) -> None:
-        done[0] += 1
-        if progress is not None:
-            progress(done[0], total + extra)
-
     baselines: dict[tuple[int, int], list[Outcome]] = {}
     cpu = {"making_mutants": time.process_time() - cpu0, "originals": 0.0, "equivalence": 0.0,
            "checks_first_pass": 0.0, "checks_full_budget": 0.0}
     first: dict[int, dict] = {}
     final: dict[int, dict] = {}
-    pool = _Pool(min(workers, max(1, len(mutants) + len(product_list))))
-    try:
-        def got_original(res: tuple[int, int, list[Outcome], float]) -> None:
-            baselines[(res[0], res[1])] = res[2]
-            cpu["originals"] += res[3]
-            tick()
+    waiting: dict[int, list[int]] = collections.defaultdict(list)  # survivors waiting for a full baseline
 
-        pool.map(_task_original, [(i, p) for i in range(len(product_list)) for p in (quick_paths, paths)],
-                 got_original)
+    def verdicts(i: int, budget: int) -> list[str]:
+        return [o.verdict for o in baselines[(i, budget)]]
 
-        def verdicts(cls: type[Product], budget: int) -> list[str]:
-            return [o.verdict for o in baselines[(index_of[cls], budget)]]
+    def full_stage(k: int) -> tuple[Callable, tuple]:
+        return _task_mutant, (k, "full", verdicts(index_of[mutants[k].original], paths))
 
-        def got_first(res: dict) -> None:
-            first[res["mid"]] = res
+    def on_done(res: Any) -> list[tuple[Callable, tuple]]:
+        done[0] += 1
+        new: list[tuple[Callable, tuple]] = []
+        if isinstance(res, tuple):  # an original's run
+            i, budget, outcomes, seconds = res
+            baselines[(i, budget)] = outcomes
+            cpu["originals"] += seconds
+            if budget == quick_paths:
+                new += [(_task_mutant, (k, "first", verdicts(i, quick_paths))) for k in by_product[i]]
+            if budget == paths:
+                new += [full_stage(k) for k in waiting.pop(i, [])]
+        elif res["stage"] == "first":
+            k = res["mid"]
+            first[k] = res
             cpu["equivalence"] += res["cpu_equivalence"]
             cpu["checks_first_pass"] += res["cpu_checks"]
-            tick()
-
-        pool.map(_task_mutant, [(k, "first", verdicts(m.original, quick_paths)) for k, m in enumerate(mutants)],
-                 got_first)
-        again = [k for k, r in first.items() if r["status"] == "survived" and paths > quick_paths]
-        total += len(again)
-
-        def got_full(res: dict) -> None:
+            if res["status"] == "survived" and paths > quick_paths:
+                total[0] += 1
+                i = index_of[mutants[k].original]
+                if (i, paths) in baselines:
+                    new.append(full_stage(k))
+                else:
+                    waiting[i].append(k)
+        else:
             final[res["mid"]] = res
             cpu["equivalence"] += res["cpu_equivalence"]
             cpu["checks_full_budget"] += res["cpu_checks"]
-            tick()
+        if progress is not None:
+            progress(done[0], total[0])
+        return new
 
-        pool.map(_task_mutant, [(k, "full", verdicts(mutants[k].original, paths)) for k in sorted(again)], got_full)
+    # the originals' first-pass runs go first: each one releases its product's mutants
+    initial = [(_task_original, (i, b)) for b in budgets for i in range(len(product_list))]
+    pool = _Pool(min(workers, max(1, len(mutants) + len(product_list))))
+    try:
+        pool.run(initial, on_done)
     finally:
         pool.close()
         _REGISTRY.clear()
