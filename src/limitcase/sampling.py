@@ -51,7 +51,7 @@ from __future__ import annotations
 
 import math
 import warnings
-from collections import deque
+from collections import OrderedDict, deque
 from dataclasses import dataclass
 from typing import Any, Callable, Sequence
 
@@ -416,6 +416,27 @@ class BrownianBridge:
 _ENGINES: dict[tuple, list] = {}
 _ENGINE_CACHE_LIMIT = 4096
 
+BLOCK_CACHE_BYTES = 64 << 20
+"""Sobol blocks kept per process for reuse. Cases on the same grid with the same number of
+normals per date use the very same normals (the scrambles depend on the seed and the
+dimension only), so the second case onwards copies them instead of generating, inverting
+and bridging them again. Least recently used blocks go first; the budget is fixed, so the
+memory bound does not grow with the path count."""
+_BLOCKS: "OrderedDict[tuple, np.ndarray]" = OrderedDict()
+_BLOCK_BYTES = [0]
+
+
+def _remember(tag: tuple, z: np.ndarray) -> None:
+    if z.nbytes > BLOCK_CACHE_BYTES // 8:
+        return
+    while _BLOCKS and _BLOCK_BYTES[0] + z.nbytes > BLOCK_CACHE_BYTES:
+        _, old = _BLOCKS.popitem(last=False)
+        _BLOCK_BYTES[0] -= old.nbytes
+    keep = z.copy()
+    keep.flags.writeable = False
+    _BLOCKS[tag] = keep
+    _BLOCK_BYTES[0] += keep.nbytes
+
 
 def _sobol_engine(seed: np.random.SeedSequence, dim: int, r: int, position: int) -> Any:
     """Scramble ``r`` of dimension ``dim``, positioned at point ``position`` (cached per
@@ -489,6 +510,13 @@ class SobolBridge(Sampler):
     def draw(self, g: np.random.Generator, z: np.ndarray, block: int) -> None:
         assert self.seed is not None and self.bridge is not None and self.block is not None
         n, m, k = z.shape
+        tag = (self.seed.entropy, tuple(self.seed.spawn_key), self.bridge.times.tobytes(), k, self.scrambles,
+               self.block, block, n)
+        hit = _BLOCKS.get(tag)
+        if hit is not None:  # another case on the same grid drew this block already
+            _BLOCKS.move_to_end(tag)
+            np.copyto(z, hit)
+            return
         r_count = self.scrambles
         c = n // r_count
         chunk = self.block // r_count
@@ -500,7 +528,11 @@ class SobolBridge(Sampler):
             entry[1] += c
         u += _HALF_CELL  # cell midpoints: strictly inside (0, 1), so the inverse stays finite
         ndtri(u, out=u)
-        self.bridge.increments(u.reshape(n, m, k), z)
+        if m == 1:  # one date: the bridge is the identity
+            z[...] = u.reshape(n, 1, k)
+        else:
+            self.bridge.increments(u.reshape(n, m, k), z)
+        _remember(tag, z)
 
     def summarise(self, x: np.ndarray, block: int) -> Any:
         r_count = self.scrambles

@@ -59,6 +59,13 @@ def test_sobol_blocks_do_not_depend_on_history():
     evaluate([p], MODEL, paths=5 * BLOCK, seed=9, method="sobol", key=3)  # moves the shared scrambles on
     b = evaluate([p], MODEL, paths=2 * BLOCK, seed=9, method="sobol")
     assert _numbers(a) == _numbers(b)
+    from limitcase import sampling
+
+    sampling._BLOCKS.clear()  # the per-process cache of Sobol blocks changes nothing either
+    sampling._BLOCK_BYTES[0] = 0
+    sampling._ENGINES.clear()
+    c = evaluate([p], MODEL, paths=2 * BLOCK, seed=9, method="sobol")
+    assert _numbers(a) == _numbers(c)
 
 
 def _merton_check():
