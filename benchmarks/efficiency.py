@@ -39,7 +39,9 @@ METHODS = ("plain", "antithetic", "sobol", "control", "control+antithetic", "con
 def measure(product, model, method: str, paths: int, seeds: int) -> tuple[float, float, float]:
     times, variances, values = [], [], []
     for seed in range(seeds):
-        sampling._ENGINES.clear()  # every timed run pays for its own scrambles
+        sampling._ENGINES.clear()  # every timed run pays for its own scrambles and blocks
+        sampling._BLOCKS.clear()
+        sampling._BLOCK_BYTES[0] = 0
         t0 = time.process_time()
         est = price(product, model, paths=paths, seed=100 + seed, method=method)
         t = time.process_time() - t0
