@@ -99,7 +99,8 @@ def check(paths_in: tuple[str, ...], paths: int, seed: int, alpha: float, json_p
     if target is not None:
         reproduce += f" --precision {precision} --max-paths {max_paths}"
     click.echo(render_summary(result, reproduce=reproduce))
-    click.echo(f"{result.extra['wall_seconds']:.1f} s on {workers} worker{'' if workers == 1 else 's'}")
+    used = result.extra.get("processes", 1)
+    click.echo(f"{result.extra['wall_seconds']:.1f} s on " + ("1 process" if used == 1 else f"{used} worker processes"))
     write_outputs(result, "check", json_path, junit_path, reproduce)
     sys.exit(EXIT_OK if result.ok else EXIT_FAIL)
 
@@ -123,7 +124,7 @@ def _detection_table(result: Any) -> str:
             row.append(f"{status} ({o.precision:.3g})" if o.precision is not None else status)
         rows.append(row)
     widths = [max(len(r[i]) for r in rows) for i in range(len(head))]
-    lines = [f"smallest bias each check detects with 90% power (Holm over {m} checks at alpha "
+    lines = [f"smallest bias each check detects with 90% power (Holm over {m} check{'' if m == 1 else 's'} at alpha "
              f"{result.alpha:g}; declared allowances included)"]
     for k, r in enumerate(rows):
         lines.append("  ".join(c.ljust(w) if i < 3 else c.rjust(w) for i, (c, w) in enumerate(zip(r, widths))).rstrip())
