@@ -1681,7 +1681,7 @@ def run_mutation(
         The run's seed and family-wise false-alarm rate (per product, Holm), as for
         ``limitcase check``: mutant and original share every random stream.
     workers
-        Worker processes (default: the number of CPUs); 1 runs in this process.
+        Worker processes (default: the cores this process may use); 1 runs in this process.
     operators
         Operator names to apply (default: all of :data:`OPERATORS`).
     method
@@ -1710,7 +1710,9 @@ def run_mutation(
         raise ParamError(f"quick_paths={quick_paths!r} is above paths={paths!r}; the first pass must be the "
                          "cheaper one (lower quick_paths or raise paths)")
     if workers is None:
-        workers = os.cpu_count() or 1
+        from .suite import default_workers
+
+        workers = default_workers()
     if not isinstance(workers, int) or workers < 1:
         raise ParamError(f"workers={workers!r} must be an integer >= 1")
     start = time.monotonic()

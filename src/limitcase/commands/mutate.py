@@ -104,7 +104,7 @@ def _equivalents(report: Any) -> str:
               default=DEFAULT_ALPHA, show_default=True,
               help="Family-wise false-alarm rate of each product's checks (Holm).")
 @click.option("--workers", type=click.IntRange(min=1), default=None,
-              help="Worker processes (default: the number of CPUs).")
+              help="Worker processes (default: all cores).")
 @click.option("--method", type=click.Choice(_methods()), default="auto", show_default=True,
               help="Sampling method of the checks, as for 'limitcase check' (the equivalence "
                    "comparison always uses plain paths).")
