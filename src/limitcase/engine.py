@@ -614,6 +614,7 @@ class Case:
         """Blocks ``first .. last - 1`` of a run of ``paths`` paths (already rounded)."""
         buf = buffer if buffer is not None else self._buffer(min(BLOCK, paths))
         out = []
+        self.sampler.prepare(first, last, paths)
         for b in range(first, last):
             size = min(BLOCK, paths - b * BLOCK)
             if size <= 0:

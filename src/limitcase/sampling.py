@@ -289,6 +289,10 @@ class Sampler:
     def draw(self, g: np.random.Generator, z: np.ndarray, block: int) -> None:
         raise NotImplementedError
 
+    def prepare(self, first: int, last: int, paths: int) -> None:
+        """Hook: blocks ``first .. last - 1`` of a run of ``paths`` paths are about to be
+        drawn, in order (a sampler may make them together). Default: nothing."""
+
     def summarise(self, x: np.ndarray, block: int) -> Any:
         return moment_summary(x, x.shape[0])
 
@@ -507,11 +511,62 @@ class SobolBridge(Sampler):
         r = self.scrambles
         return -(-paths // r) * r
 
+    def _tag(self, block: int, n: int) -> tuple:
+        assert self.seed is not None and self.bridge is not None
+        return (self.seed.entropy, tuple(self.seed.spawn_key), self.bridge.times.tobytes(), self.k,
+                self.scrambles, self.block, block, n)
+
+    def prepare(self, first: int, last: int, paths: int) -> None:
+        """Make the full blocks ``first .. last - 1`` at once, a few at a time: one call per
+        scramble for several blocks, and the bridge over all of them together, instead of
+        per block (the cost of a block of few dates is mostly per-call overhead). They go to
+        the block cache, where :meth:`draw` finds them; the numbers are those of ``draw``."""
+        assert self.seed is not None and self.bridge is not None and self.block is not None
+        n = self.block
+        m, k = len(self.bridge.times), self.k
+        dim = m * k
+        per_block = n * dim * 8
+        if per_block * 2 > BLOCK_CACHE_BYTES // 4:
+            return
+        full_last = min(last, paths // n)
+        todo = [b for b in range(first, full_last) if self._tag(b, n) not in _BLOCKS]
+        if len(todo) < 2:
+            return
+        step = max(1, min(64, (BLOCK_CACHE_BYTES // 4) // per_block))
+        r_count = self.scrambles
+        c = n // r_count
+        runs: list[list[int]] = []
+        for b in todo:  # consecutive runs of blocks, each from one position per scramble
+            if runs and b == runs[-1][-1] + 1 and len(runs[-1]) < step:
+                runs[-1].append(b)
+            else:
+                runs.append([b])
+        for run in runs:
+            count = len(run)
+            u = np.empty((count, r_count, c, dim))
+            with warnings.catch_warnings():
+                # scipy's note on balance at counts that are not powers of 2: the estimate
+                # stays unbiased at any count, and a run's count is whole blocks
+                warnings.filterwarnings("ignore", message="The balance properties", category=UserWarning)
+                for r in range(r_count):
+                    entry = _sobol_engine(self.seed, dim, r, run[0] * c)
+                    u[:, r] = entry[0].random(count * c).reshape(count, c, dim)
+                    entry[1] += count * c
+            u = u.reshape(count * n, dim)
+            u += _HALF_CELL
+            ndtri(u, out=u)
+            z = np.empty((count * n, m, k))
+            if m == 1:
+                z[...] = u.reshape(count * n, 1, k)
+            else:
+                self.bridge.increments(u.reshape(count * n, m, k), z)
+            for i, b in enumerate(run):
+                _remember(self._tag(b, n), z[i * n : (i + 1) * n])
+
     def draw(self, g: np.random.Generator, z: np.ndarray, block: int) -> None:
         assert self.seed is not None and self.bridge is not None and self.block is not None
         n, m, k = z.shape
-        tag = (self.seed.entropy, tuple(self.seed.spawn_key), self.bridge.times.tobytes(), k, self.scrambles,
-               self.block, block, n)
+        tag = self._tag(block, n)
         hit = _BLOCKS.get(tag)
         if hit is not None:  # another case on the same grid drew this block already
             _BLOCKS.move_to_end(tag)
