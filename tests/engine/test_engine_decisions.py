@@ -46,11 +46,9 @@ def _rejections(checks, runs=RUNS, **kw):
     return count
 
 
-@pytest.mark.parametrize("method, runs", [("plain", RUNS), ("control+sobol", 100)])
+@pytest.mark.parametrize("method, runs", [("plain", RUNS), ("control+sobol", RUNS)])
 def test_false_alarm_rate_is_nominal(method, runs):
-    """(Sobol runs: 100, each seed builds its 32 scrambles; their error calibration is also
-    tested over seeds in test_engine_unbiased.py. The call carries a strong control, so
-    control variates and Sobol points act together.)"""
+    """The call carries a strong control, so control variates and Sobol points act together."""
     fails = _rejections([call_check(product=CallWithTwin())], runs=runs, paths=BLOCK, method=method)
     lo, hi = _interval(ALPHA, runs)
     assert lo <= fails <= hi, (fails, lo, hi)
@@ -65,24 +63,28 @@ def test_false_alarm_rate_under_precision_rounds():
     assert lo <= fails <= hi, (fails, lo, hi)
 
 
-@pytest.mark.parametrize("method, sense", [("plain", "=="), ("antithetic", ">=")])
-def test_power_at_the_detectable_bias_is_ninety_percent(method, sense):
+@pytest.mark.parametrize("method, sense, strong_control", [
+    ("plain", "==", False), ("antithetic", ">=", False), ("control+sobol", "==", True)])
+def test_power_at_the_detectable_bias_is_ninety_percent(method, sense, strong_control):
     """For each seed: run the correct check with a correct twin (Holm over 2) and read the
     detectable bias b it reports; then run the same seed with the product biased by b
     (downwards for the one-sided check, the direction it guards against). The constant
     does not change the standard error, so b is the detectable bias of the biased run too,
     and the detection rate must be the reported 90%. A wrong standard error (too large or
-    too small) or a biased estimator moves the rate away from 90%."""
+    too small) or a biased estimator moves the rate away from 90%. Under Sobol points the
+    standard error has 31 degrees of freedom and the bias uses Student's t quantiles."""
+    base = CallWithTwin if strong_control else EuropeanCall
     hits = 0
     for seed in range(RUNS):
-        family = [call_check(sense=sense), call_check(case="twin")]
+        family = [call_check(product=base(), sense=sense), call_check(case="twin")]
         probe = run_checks(family, paths=BLOCK, seed=seed, alpha=ALPHA, method=method)
         b = probe.outcomes[0].detectable_bias
-        biased = type("BiasedBy", (BiasedCall,), {"bias": -b if sense == ">=" else b})
+        biased = type("BiasedBy", (BiasedCall, base), {"bias": -b if sense == ">=" else b})
         family[0] = call_check(product=biased(), sense=sense)
         run = run_checks(family, paths=BLOCK, seed=seed, alpha=ALPHA, method=method)
         o = run.outcomes[0]
         assert o.detectable_bias == pytest.approx(b, rel=1e-9)
+        assert o.method == probe.outcomes[0].method == ("control+sobol" if strong_control else method)
         hits += o.verdict == "fail"
     lo, hi = _interval(POWER)
     assert lo <= hits <= hi, (hits, lo, hi)
