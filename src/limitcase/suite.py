@@ -17,6 +17,8 @@ detectable bias (:func:`limitcase.verdict.detectable_bias` at the run's alpha an
 checks) is at most the target, or the check's ``max_paths`` budget is spent. Blocks are
 added in order, so the result is the result of a fixed run with the final path count; the
 next round's size depends only on the standard errors so far, never on the differences.
+(A relative target on a relation whose target is 0 is taken relative to the largest price
+among the legs it weighs: a leg's mean, not the difference under test.)
 
 Sequential-testing caveat. Choosing the sample size from the data and then testing as if it
 had been fixed is exact when the stopping rule is independent of the sample mean. The
