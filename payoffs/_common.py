@@ -3,13 +3,11 @@ of any one-asset model, evenly spaced dates, and a product's own closed form as 
 
 from __future__ import annotations
 
-from dataclasses import dataclass, replace
-from typing import Any, Callable, Mapping
+from typing import Any, Mapping
 
 import numpy as np
 
-from limitcase import Identity, Product, Reduction
-from limitcase.reduce import Check
+from limitcase import Reduction
 from limitcase.errors import NoReference
 from limitcase.models import BlackScholes, Model
 
@@ -27,22 +25,6 @@ def market(model: Model) -> tuple[float, float, float]:
     """``(spot, rate, dividend)`` today of a one-asset model (any model, not only
     Black-Scholes): what model-free bounds such as ``S0 exp(-qT)`` need."""
     return float(model.initial()[0]), model.short_rate, float(model.dividend_yields()[0])
-
-
-ROUNDING = 1e-9
-"""Relative floating-point tolerance for a price that carries no sampling noise (a sure
-amount, or a limit that pays it): block means of a constant are off by up to ~1e-12
-relative and their "standard error" is rounding noise, not zero. The same relative
-tolerance as the engine's path-by-path rules (:class:`limitcase.engine.PathRule`)."""
-
-
-def rounding(amount: Callable[[Any], float]) -> Callable[[Any, Model], float]:
-    """An allowance ``ROUNDING * amount(product)`` for a check whose target is a sure
-    amount: declare it with ``reason=ROUNDING_REASON``."""
-    return lambda p, model: ROUNDING * abs(amount(p))
-
-
-ROUNDING_REASON = "floating-point rounding (the check has no sampling noise to test against)"
 
 
 def even_dates(maturity: float, n: int) -> np.ndarray:
@@ -72,28 +54,6 @@ def own_closed_form(
         reason=reason,
         note=note or "Monte Carlo price against the product's own closed form",
     )
-
-
-@dataclass(frozen=True)
-class PathIdentity(Identity):
-    """:class:`limitcase.Identity` checked on every path, whose mean is also allowed the
-    rounding of its legs' block sums.
-
-    The identity is verified path by path to the engine's relative tolerance; the mean of
-    a combination that is zero on every path is then zero up to rounding, about
-    ``ROUNDING * sum |w_i| * scale`` with ``scale`` a price level of the legs (default
-    the spot). Without this the statistical half of the check would compare rounding
-    (~1e-12) with a standard error of exactly 0 and fail a correct identity.
-    """
-
-    scale: Callable[[Product, Model], float] = lambda p, model: market(model)[0]
-
-    def checks(self, product: Product, model: Model) -> list[Check]:
-        out = []
-        for c in super().checks(product, model):
-            bound = ROUNDING * sum(abs(w) for w in c.weights) * abs(self.scale(product, model))
-            out.append(replace(c, allowance=bound, allowance_reason=ROUNDING_REASON))
-        return out
 
 
 def period_starts(obs: Any) -> np.ndarray:

@@ -27,11 +27,11 @@ import math
 import numpy as np
 import sympy as sp
 
-from limitcase import Bound, Convex, Monotone, NoReference, Param, ParamError, Product, Reduction
+from limitcase import Bound, Convex, Identity, Monotone, NoReference, Param, ParamError, Product, Reduction
 from limitcase.symbolic import formula_symbols
 from limitcase.references import geometric_asian, margrabe_exchange
 
-from ._common import PathIdentity, bs_inputs, own_closed_form
+from ._common import bs_inputs, own_closed_form
 from .vanilla import EuropeanCall, EuropeanPut, PrepaidForward, ZeroCouponBond
 
 
@@ -134,7 +134,7 @@ class AverageForward(_FixedStrike):
 
     reductions = (_closed_form("exp(-rT) (mean of the forwards at the fixings - K)", +10.0),)
     relations = (
-        PathIdentity(
+        Identity(
             "put_call_parity",
             lambda p: [
                 (1.0, ArithmeticAsianCall(strike=p.strike, **_late_window(p).schedule())),
@@ -238,7 +238,7 @@ class ArithmeticAsianCall(_FixedStrike):
         ),
     )
     relations = (
-        PathIdentity(
+        Identity(
             "put_call_parity",
             lambda p: [
                 (1.0, _late_window(p)),
@@ -338,7 +338,7 @@ def _geometric_floating(product: _FloatingStrike, model, kind: str) -> float:
     return margrabe_exchange(strike_leg, spot, big_t, 0.0, dividend, rel_vol, 0.0, 0.0)
 
 
-def _floating_parity(partner, average, sign: float) -> PathIdentity:
+def _floating_parity(partner, average, sign: float) -> Identity:
     """Put-call parity of a floating-strike option, from its own side (``sign`` +1 for the
     call, -1 for the put): ``call - put = S(T) - k X`` on every path, X the average, paid
     by the fixed-strike call struck at 0 (``average``)."""
@@ -352,7 +352,7 @@ def _floating_parity(partner, average, sign: float) -> PathIdentity:
             (sign * q.ratio, average(strike=0.0, **q.schedule())),
         ]
 
-    return PathIdentity(
+    return Identity(
         "put_call_parity", legs,
         note="max(S(T) - kX, 0) - max(kX - S(T), 0) = S(T) - kX on every path (averaging window (T/2, T])",
     )

@@ -32,10 +32,10 @@ import numpy as np
 from scipy.special import roots_legendre
 from scipy.stats import norm
 
-from limitcase import BlackScholes, Bound, Model, Monotone, NoReference, Param, Product, Reduction
+from limitcase import BlackScholes, Bound, Identity, Model, Monotone, NoReference, Param, Product, Reduction
 from limitcase.references import cash_or_nothing, gap_option
 
-from ._common import ROUNDING_REASON, PathIdentity, bs_inputs, even_dates, own_closed_form, rounding
+from ._common import bs_inputs, even_dates, own_closed_form
 from .vanilla import ZeroCouponBond
 
 SCENARIO = BlackScholes(spot=100.0, rate=0.03, dividend=0.02, vol=0.25)
@@ -84,8 +84,6 @@ def _at_the_levels(changes: dict) -> Reduction:
         {**changes, "coupon_barrier": 1.0, "protection": 1.0},
         becomes=lambda p: DigitalCouponNote(**{**_note_terms(p), "coupon_barrier": 0.0, "protection": 0.0}),
         model_changes=PINNED,
-        allowance=rounding(lambda p: p.notional * (1.0 + p.coupon * p.observations)),
-        reason=ROUNDING_REASON,
         note="the asset pinned on the levels: S(t_i) >= B S(0) holds with equality, every coupon and N are paid",
     )
 
@@ -103,7 +101,7 @@ def _note_relations() -> tuple:
             note="a higher coupon barrier pays fewer coupons, or pays them later (on every path when r >= 0)",
         ),
         Monotone("protection", -1, to=lambda p: min(p.protection + 0.2, 1.0), pathwise=True),
-        PathIdentity("linear_in_coupon", _linear_in_coupon, scale=lambda p, m: p.notional),
+        Identity("linear_in_coupon", _linear_in_coupon),
         Bound(
             "below_sure_coupons", "<=", lambda p, m: p.sure_coupons().reference(m),
             pathwise_leg=lambda p: p.sure_coupons(),
@@ -133,8 +131,6 @@ class DigitalCouponNote(_Note):
             "zero_coupon_bond",
             {"coupon": 0.0, "protection": 0.0},
             becomes=lambda p: ZeroCouponBond(cash=p.notional, maturity=p.maturity),
-            allowance=rounding(lambda p: p.notional),
-            reason=ROUNDING_REASON,
             note="no coupon and the capital always repaid: N at T on every path",
         ),
     )
@@ -215,8 +211,6 @@ class Autocallable(_Note):
             "every_coupon_paid",
             {"coupon_barrier": 0.0, "trigger": math.inf, "protection": 0.0},
             becomes=lambda p: p.sure_coupons(),
-            allowance=rounding(lambda p: p.notional * (1.0 + p.coupon * p.observations)),
-            reason=ROUNDING_REASON,
             note="coupon barrier 0: every coupon is paid on its date, memory or not -- a fixed-coupon bond",
         ),
         _at_the_levels({"trigger": math.inf}),
@@ -225,24 +219,18 @@ class Autocallable(_Note):
             {},
             becomes=lambda p: ZeroCouponBond(cash=p.notional * (1.0 + p.coupon), maturity=p.dates()[0]),
             model_changes=PINNED,
-            allowance=rounding(lambda p: p.notional * (1.0 + p.coupon)),
-            reason=ROUNDING_REASON,
             note="the asset pinned at the trigger: a fixing equal to it calls the note, N (1 + c) at t_1",
         ),
         Reduction(
             "called_on_first_date",
             {"trigger": 0.0},
             becomes=lambda p: ZeroCouponBond(cash=p.notional * (1.0 + p.coupon), maturity=p.dates()[0]),
-            allowance=rounding(lambda p: p.notional * (1.0 + p.coupon)),
-            reason=ROUNDING_REASON,
             note="trigger 0: called on the first date, N (1 + c) at t_1 on every path",
         ),
         Reduction(
             "zero_coupon_bond",
             {"trigger": math.inf, "protection": 0.0, "coupon": 0.0},
             becomes=lambda p: ZeroCouponBond(cash=p.notional, maturity=p.maturity),
-            allowance=rounding(lambda p: p.notional),
-            reason=ROUNDING_REASON,
             note="never called, no coupon, capital always repaid: N at T on every path",
         ),
     )

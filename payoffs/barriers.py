@@ -40,19 +40,12 @@ import numpy as np
 import sympy as sp
 
 from limitcase.symbolic import formula_symbols
-from limitcase import BlackScholes, Bound, Cashflows, Monotone, Param, Product, Reduction
+from limitcase import BlackScholes, Bound, Cashflows, Identity, Monotone, Param, Product, Reduction
 from limitcase.errors import NoReference
 from limitcase.reduce import Check, Relation
 from limitcase.references import barrier_option
 
-from ._common import (
-    ROUNDING,
-    ROUNDING_REASON,
-    PathIdentity,
-    bs_inputs,
-    even_dates,
-    own_closed_form,
-)
+from ._common import bs_inputs, even_dates, own_closed_form
 from .vanilla import EuropeanCall, EuropeanPut, ZeroCouponBond
 
 SPOT = 100.0
@@ -163,8 +156,6 @@ _AWAY_IN = Reduction(
     "barrier_out_of_reach",
     {"barrier": _out_of_reach, "strike": 90.0, "rebate": REBATE},
     becomes=_rebate_at_expiry,
-    allowance=lambda p, m: ROUNDING * p.rebate,
-    reason=ROUNDING_REASON,
     note="H at inf (up) or 0 (down) is never touched: never knocked in, the rebate at T",
 )
 _TOUCHED_TODAY_OUT = Reduction(
@@ -172,8 +163,6 @@ _TOUCHED_TODAY_OUT = Reduction(
     {"barrier": SPOT, "strike": _live_side, "rebate": REBATE, "rebate_at_hit": 0},
     model_changes={"spot": SPOT},
     becomes=_rebate_at_expiry,
-    allowance=lambda p, m: ROUNDING * p.rebate,
-    reason=ROUNDING_REASON,
     note="H at the spot is touched today: knocked out at once, the rebate (here paid at T); "
     "the strike 10 on the live side",
 )
@@ -191,17 +180,15 @@ _TOUCHED_TODAY_PAID_NOW = Reduction(
     model_changes={"spot": SPOT},
     becomes=_rebate_at_expiry,
     reference_model=lambda model, p: model.replace(rate=0.0),
-    allowance=lambda p, m: ROUNDING * p.rebate,
-    reason=ROUNDING_REASON,
     note="H at the spot, rebate paid at the touch: R paid today, worth R (the bond paying R, "
     "priced at zero rate)",
 )
-_IN_PLUS_OUT = PathIdentity(
+_IN_PLUS_OUT = Identity(
     "in_plus_out_is_vanilla",
     lambda p: [(1.0, p.replace(rebate=0.0)), (1.0, _sibling(p, out=not p.out, rebate=0.0)), (-1.0, _vanilla(p))],
     note="without rebates, knock-in + knock-out = vanilla on every path",
 )
-_IN_PLUS_OUT_REBATES = PathIdentity(
+_IN_PLUS_OUT_REBATES = Identity(
     "in_plus_out_with_rebates",
     lambda p: [
         (1.0, _near_with_rebate_at_expiry(p)),

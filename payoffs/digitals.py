@@ -13,10 +13,10 @@ import numpy as np
 import sympy as sp
 
 from limitcase.symbolic import formula_symbols
-from limitcase import Bound, Monotone, Param, Product, Reduction
+from limitcase import Bound, Identity, Monotone, Param, Product, Reduction
 from limitcase.references import asset_or_nothing, cash_or_nothing, gap_option
 
-from ._common import ROUNDING_REASON, PathIdentity, bs_inputs, own_closed_form, rounding
+from ._common import bs_inputs, own_closed_form
 from .vanilla import EuropeanCall, EuropeanPut, ForwardContract, PrepaidForward, ZeroCouponBond
 
 
@@ -63,7 +63,6 @@ class CashOrNothingCall(_Digital):
 
     reductions = (
         Reduction("zero_strike", {"strike": 0.0}, becomes=lambda p: _bond(p.cash, p),
-                  allowance=rounding(lambda p: p.cash), reason=ROUNDING_REASON,
                   note="strike 0: S(T) > 0 on every path, so C is always paid"),
         own_closed_form(note="C exp(-rT) N(d2)"),
         _ends_at("strike"),
@@ -105,7 +104,7 @@ class CashOrNothingPut(_Digital):
         _ends_at("strike"),
     )
     relations = (
-        PathIdentity(
+        Identity(
             "call_plus_put_is_bond",
             lambda p: [(1.0, p), (1.0, CashOrNothingCall(strike=p.strike, cash=p.cash, maturity=p.maturity)),
                        (-1.0, _bond(p.cash, p))],
@@ -139,7 +138,7 @@ class AssetOrNothingCall(_Digital):
         _ends_at("strike"),
     )
     relations = (
-        PathIdentity(
+        Identity(
             "minus_cash_digital_is_call",
             lambda p: [(1.0, p), (-1.0, CashOrNothingCall(strike=p.strike, cash=p.strike, maturity=p.maturity)),
                        (-1.0, EuropeanCall(strike=p.strike, maturity=p.maturity))],
@@ -175,12 +174,12 @@ class AssetOrNothingPut(_Digital):
         _ends_at("strike"),
     )
     relations = (
-        PathIdentity(
+        Identity(
             "call_plus_put_is_forward",
             lambda p: [(1.0, p), (1.0, AssetOrNothingCall(strike=p.strike, maturity=p.maturity)),
                        (-1.0, PrepaidForward(maturity=p.maturity))],
         ),
-        PathIdentity(
+        Identity(
             "cash_digital_minus_put_is_put",
             lambda p: [(-1.0, p), (1.0, CashOrNothingPut(strike=p.strike, cash=p.strike, maturity=p.maturity)),
                        (-1.0, EuropeanPut(strike=p.strike, maturity=p.maturity))],
@@ -224,12 +223,12 @@ class GapCall(_Gap):
         _ends_at("trigger"),
     )
     relations = (
-        PathIdentity(
+        Identity(
             "asset_minus_cash_digitals",
             lambda p: [(1.0, p), (-1.0, AssetOrNothingCall(strike=p.trigger, maturity=p.maturity)),
                        (1.0, CashOrNothingCall(strike=p.trigger, cash=p.strike, maturity=p.maturity))],
         ),
-        PathIdentity(
+        Identity(
             "gap_parity",
             lambda p: [(1.0, p), (-1.0, GapPut(strike=p.strike, trigger=p.trigger, maturity=p.maturity)),
                        (-1.0, ForwardContract(strike=p.strike, maturity=p.maturity))],
@@ -265,7 +264,7 @@ class GapPut(_Gap):
         _ends_at("trigger"),
     )
     relations = (
-        PathIdentity(
+        Identity(
             "cash_minus_asset_digitals",
             lambda p: [(1.0, p), (-1.0, CashOrNothingPut(strike=p.trigger, cash=p.strike, maturity=p.maturity)),
                        (1.0, AssetOrNothingPut(strike=p.trigger, maturity=p.maturity))],

@@ -37,10 +37,11 @@ from limitcase import (
     ParamError,
     Product,
     Reduction,
+    Identity,
 )
 from limitcase.references import margrabe_exchange
 
-from ._common import PathIdentity, own_closed_form
+from ._common import own_closed_form
 from .vanilla import EuropeanCall, EuropeanPut
 
 MAX_ASSETS = 20
@@ -508,7 +509,7 @@ class BestOfCall(_SeveralAssets):
         ),
     )
     relations = (
-        PathIdentity("best_plus_worst", _best_plus_worst),
+        Identity("best_plus_worst", _best_plus_worst),
         _versus_asset_call(">=", "first"),
         _versus_asset_call(">=", "last"),
         Monotone("strike", -1, to=lambda p: p.strike + 10.0, pathwise=True),
@@ -541,7 +542,7 @@ class WorstOfCall(_SeveralAssets):
         ),
     )
     relations = (
-        PathIdentity("best_plus_worst", _best_plus_worst),
+        Identity("best_plus_worst", _best_plus_worst),
         _versus_asset_call("<=", "first"),
         _versus_asset_call("<=", "last"),
         Monotone("strike", -1, to=lambda p: p.strike + 10.0, pathwise=True),

@@ -8,10 +8,10 @@ from __future__ import annotations
 
 import numpy as np
 
-from limitcase import Monotone, Param, Product, Reduction
+from limitcase import Identity, Monotone, Param, Product, Reduction
 from limitcase.references import power_option
 
-from ._common import PathIdentity, bs_inputs, market, own_closed_form
+from ._common import bs_inputs, own_closed_form
 from .vanilla import EuropeanCall, EuropeanPut, ZeroCouponBond
 
 
@@ -54,7 +54,7 @@ class PowerCall(_Power):
         own_closed_form(note="Black-Scholes on the log-normal S(T)^p"),
     )
     relations = (
-        PathIdentity(
+        Identity(
             "power_parity",
             lambda p: [
                 (1.0, p),
@@ -62,7 +62,6 @@ class PowerCall(_Power):
                 (-1.0, p.replace(strike=0.0)),
                 (1.0, ZeroCouponBond(cash=p.strike, maturity=p.maturity)),
             ],
-            scale=lambda p, m: market(m)[0] ** p.power,
             note="max(X - K, 0) - max(K - X, 0) = X - K with X = S(T)^p, on every path",
         ),
         Monotone("strike", -1, to=lambda p: p.strike * 1.1, pathwise=True),

@@ -13,11 +13,11 @@ import math
 import numpy as np
 import sympy as sp
 
-from limitcase import Bound, Convex, Monotone, Param, Product, Reduction
+from limitcase import Bound, Convex, Identity, Monotone, Param, Product, Reduction
 from limitcase.symbolic import formula_symbols
 from limitcase.references import black_scholes, prepaid_forward
 
-from ._common import ROUNDING_REASON, PathIdentity, bs_inputs, market, own_closed_form, rounding
+from ._common import bs_inputs, market, own_closed_form
 
 
 class PrepaidForward(Product):
@@ -55,8 +55,6 @@ class ZeroCouponBond(Product):
 
     reductions = (
         own_closed_form(
-            allowance=rounding(lambda p: p.cash),
-            reason=ROUNDING_REASON,
             note="a sure amount C at T is worth C exp(-rT)",
         ),
     )
@@ -138,7 +136,7 @@ class EuropeanCall(Product):
         own_closed_form(note="Black-Scholes call"),
     )
     relations = (
-        PathIdentity(
+        Identity(
             "put_call_parity",
             lambda p: [(1.0, p), (-1.0, _put(p)), (-1.0, ForwardContract(strike=p.strike, maturity=p.maturity))],
             note="max(S-K, 0) - max(K-S, 0) = S - K on every path",
@@ -250,7 +248,7 @@ class Straddle(Product):
         own_closed_form(note="Black-Scholes call + put"),
     )
     relations = (
-        PathIdentity("call_plus_put", lambda p: [(1.0, p), (-1.0, _call(p)), (-1.0, _put(p))]),
+        Identity("call_plus_put", lambda p: [(1.0, p), (-1.0, _call(p)), (-1.0, _put(p))]),
     )
 
     def dates(self) -> np.ndarray:

@@ -23,7 +23,6 @@ import math
 from dataclasses import dataclass, field
 from typing import Any, Callable, Mapping, Sequence
 
-import numpy as np
 
 from .engine import PathRule
 from .errors import LimitcaseError, NoReference, ParamError

@@ -147,7 +147,9 @@ def default_workers() -> int:
 
 
 FLOAT_FLOOR = 1e-10
-"""Standard errors below ``FLOAT_FLOOR`` times the check's price scale are raised to it.
+"""Standard errors below ``FLOAT_FLOOR`` times the check's price level are raised to it
+(zero included: a check with no sampling noise, a sure amount or an identity that holds on
+every path, is still compared through the last digits of block sums).
 A control variate equal to the statistic on every path (an arithmetic Asian with one
 fixing against the geometric one) leaves only rounding noise, ~1e-19, and the comparison
 of two closed forms would then fail on their last digits: no estimate is taken to be more
@@ -160,9 +162,10 @@ def decide(check: Check, joint: Joint, seed: int) -> Outcome:
     diff = est.value - check.target
     messages = list(joint.notes)
     scale = _scale(check, joint)
-    if scale and 0.0 < est.stderr < FLOAT_FLOOR * scale:
-        est = type(est)(est.value, FLOAT_FLOOR * scale, est.paths, est.dof)
-        messages.append(f"standard error raised to the floating-point floor {FLOAT_FLOOR:g} x {scale:.6g}")
+    level = _rounding_scale(check, joint)
+    if level and est.stderr < FLOAT_FLOOR * level:
+        est = type(est)(est.value, FLOAT_FLOOR * level, est.paths, est.dof)
+        messages.append(f"standard error raised to the floating-point floor {FLOAT_FLOOR:g} x {level:.6g}")
     pathwise_ok: bool | None = None
     if check.rules:
         pathwise_ok = all(r.violations == 0 for r in joint.rules)
@@ -210,6 +213,14 @@ def _scale(check: Check, joint: Joint) -> float | None:
         return abs(check.target)
     prices = [abs(float(m)) for w, m in zip(check.weights, joint.mean) if w]
     top = max(prices, default=0.0)
+    return top if top > 0 else None
+
+
+def _rounding_scale(check: Check, joint: Joint) -> float | None:
+    """The price level whose last digits rounding can move: the target, or the sum of the
+    weighted legs' prices when that is larger (an identity of large legs that cancel)."""
+    legs = sum(abs(w) * abs(float(m)) for w, m in zip(check.weights, joint.mean))
+    top = max(abs(check.target), legs)
     return top if top > 0 else None
 
 
