@@ -41,21 +41,24 @@ from ..suite import DEFAULT_ALPHA, DEFAULT_SEED
               help="Also write every case to this JSON file.")
 @click.option("--junit", "junit_path", type=click.Path(dir_okay=False, writable=True), default=None,
               help="Also write JUnit XML, one testcase per case, to this file.")
+@click.option("--mutations", "mutations_path", type=click.Path(dir_okay=False), default=None,
+              help="A 'limitcase mutate --json' file: show each product's mutation score and survivors.")
 @click.option("--debug", is_flag=True, help="Show tracebacks for bad input.")
 @handle_errors
 def command(paths_in: tuple[str, ...], outdir: str, paths: int, seed: int, alpha: float, points: int,
             selects: tuple[str, ...], regression_paths: int | None, method: str, workers: int | None,
             no_audits: bool, audit_paths: int | None, json_path: str | None,
-            junit_path: str | None, debug: bool) -> None:
+            junit_path: str | None, mutations_path: str | None, debug: bool) -> None:
     """Write the limit-behaviour dossier of the products in PATH (files or folders of .py
     files; default: the shipped catalogue): for each product its payoff, parameters, a
     sweep toward each declared limit with the base value, relations, audits and
     convergence pictures. Exit 0 when every case passes, 1 otherwise."""
     from ..engine import DEFAULT_REGRESSION_PATHS
     from ..loader import load_products
-    from ..report.dossier import build_dossier, write_dossier
+    from ..report.dossier import build_dossier, load_mutations, write_dossier
     from ..suite import default_workers
 
+    mutations = load_mutations(mutations_path) if mutations_path else None
     products = load_products(paths_in)
     if not products:
         raise InputFailure(f"no Product classes found in {', '.join(paths_in) or 'the catalogue'}")
@@ -75,6 +78,7 @@ def command(paths_in: tuple[str, ...], outdir: str, paths: int, seed: int, alpha
         )
     finally:
         progress.close()
+    dossier.mutations = mutations
     written = write_dossier(dossier, outdir)
     s = dossier.result.summary
     click.echo(f"{len(dossier.pages)} products, {s['total']} cases: {s['pass']} pass, {s['fail']} fail, "

@@ -97,6 +97,7 @@ class Dossier:
     settings: dict[str, Any]
     audit_note: str = ""
     audits: dict[str, list[Outcome]] = field(default_factory=dict)
+    mutations: "MutationSummary | None" = None
 
     @property
     def ok(self) -> bool:
@@ -105,6 +106,71 @@ class Dossier:
         audits_ok = all(o.verdict == "pass" for outs in self.audits.values() for o in outs)
         formulas_ok = all(p.formula is None or p.formula.cross.status == "agree" for p in self.pages)
         return self.result.ok and audits_ok and formulas_ok and all(not p.errors for p in self.pages)
+
+
+@dataclass
+class MutationSummary:
+    """What a saved ``limitcase mutate --json`` run says of each product: its score and its
+    surviving mutants (with their diffs and the check that would catch them)."""
+
+    source: str
+    scores: dict[str, Any]  # product name -> limitcase.mutate.ProductScore
+    survivors: dict[str, list[dict[str, Any]]]
+
+
+def load_mutations(path: str | Path) -> MutationSummary:
+    """Read a ``limitcase mutate --json`` file for the dossier (a mutation run takes
+    minutes; the dossier shows the last one rather than rerunning it)."""
+    import json
+
+    from ..mutate import scores_from_json
+
+    scores = scores_from_json(path)
+    doc = json.loads(Path(path).read_text(encoding="utf-8"))
+    survivors: dict[str, list[dict[str, Any]]] = {}
+    for m in doc.get("mutants", []):
+        if m.get("status") == "survived":
+            survivors.setdefault(m.get("product", ""), []).append(m)
+    return MutationSummary(str(path), scores, survivors)
+
+
+def _score_text(sc: Any) -> str:
+    if sc is None or sc.score is None:
+        return "no mutant that changes a cash flow"
+    return (f"{100 * sc.score:.1f}%: {sc.caught} caught, {sc.error} by an error, {sc.survived} survived "
+            f"of {sc.caught + sc.error + sc.survived}; {sc.equivalent} equivalent (not scored)")
+
+
+def _mutation_html(d: Dossier, page: ProductPage) -> str:
+    if d.mutations is None:
+        return ""
+    sc = d.mutations.scores.get(page.name)
+    b = ["<h2>Mutation testing</h2>"]
+    if sc is None:
+        b.append(f'<p class="muted">{_e(d.mutations.source)} has no mutants of this product.</p>')
+        return "".join(b)
+    verdict = "pass" if sc.survived == 0 else "fail"
+    b.append(f"<p>{_badge(verdict)} {_e(_score_text(sc))} (from {_e(d.mutations.source)})</p>")
+    for m in d.mutations.survivors.get(page.name, []):
+        b.append(f"<h3>survivor {_e(m.get('operator', ''))} at {_e(m.get('location', ''))}</h3>")
+        b.append(f"<pre>{_e(m.get('diff', ''))}</pre>")
+        if m.get("suggestion"):
+            b.append(f'<p class="note">{_e(m["suggestion"])}</p>')
+    return "".join(b)
+
+
+def _mutation_md(d: Dossier, page: ProductPage) -> list[str]:
+    if d.mutations is None:
+        return []
+    sc = d.mutations.scores.get(page.name)
+    m = ["## Mutation testing", ""]
+    if sc is None:
+        return m + [f"_{d.mutations.source} has no mutants of this product._", ""]
+    m += [f"{_score_text(sc)} (from {d.mutations.source})", ""]
+    for mut in d.mutations.survivors.get(page.name, []):
+        m += [f"### survivor {mut.get('operator', '')} at {mut.get('location', '')}", "", "```diff",
+              mut.get("diff", ""), "```", "", mut.get("suggestion", ""), ""]
+    return m
 
 
 # ----------------------------------------------------------------------------------------
@@ -595,10 +661,21 @@ def _product_html(d: Dossier, page: ProductPage) -> str:
     elif page.steps is None:
         b.append('<p class="muted">The scenario model is simulated exactly on the product\'s dates '
                  "(no time step to refine).</p>")
+    b.append(_mutation_html(d, page))
     b.append("<h2>Reproduce</h2>")
     b.append(f"<pre>{_e(_reproduce(d, page.name + '/'))}</pre>")
     b.append(f'<p class="muted">{_e(_settings_line(d))}</p>')
     return _page(f"{page.name} — limitcase dossier", "".join(b))
+
+
+def _mutation_cell(d: Dossier, name: str) -> str:
+    if d.mutations is None:
+        return ""
+    sc = d.mutations.scores.get(name)
+    if sc is None or sc.score is None:
+        return '<td class="muted">-</td>'
+    badge = _badge("pass" if sc.survived == 0 else "fail")
+    return f"<td class=n>{badge} {100 * sc.score:.1f}% ({sc.survived} survived)</td>"
 
 
 def _index_html(d: Dossier) -> str:
@@ -623,10 +700,12 @@ def _index_html(d: Dossier) -> str:
         prow.append(
             f'<tr><td><a href="{_e(page.slug)}.html">{_e(page.name)}</a></td><td class=n>{len(page.outcomes)}</td>'
             f"<td class=n>{c['pass']}</td><td class=n>{c['fail']}</td><td class=n>{c['error']}</td>"
-            f"<td>{formula}</td><td class=muted>{_e(page.model)}{(' — ' + _e(bad)) if bad else ''}</td></tr>"
+            f"<td>{formula}</td>{_mutation_cell(d, page.name)}"
+            f"<td class=muted>{_e(page.model)}{(' — ' + _e(bad)) if bad else ''}</td></tr>"
         )
+    mhead = "<th>mutation score</th>" if d.mutations is not None else ""
     b.append("<table><tr><th>product</th><th>cases</th><th>pass</th><th>fail</th><th>error</th>"
-             f"<th>code against formula</th><th>scenario</th></tr>{''.join(prow)}</table>")
+             f"<th>code against formula</th>{mhead}<th>scenario</th></tr>{''.join(prow)}</table>")
     b.append("<h2>Cases</h2>")
     head = ("<tr><th>product</th><th>case</th><th>kind</th><th>MC value ± SE</th><th>reference</th>"
             "<th>z</th><th>adjusted p</th><th>verdict</th></tr>")
@@ -744,6 +823,7 @@ def _product_md(d: Dossier, page: ProductPage, images: dict[str, str]) -> str:
         m += [f"![convergence in paths]({images['convergence']})", ""]
     if "steps" in images:
         m += [f"![convergence in the time step]({images['steps']})", ""]
+    m += _mutation_md(d, page)
     m += ["## Reproduce", "", "```bash", _reproduce(d, page.name + "/"), "```", "", f"_{_settings_line(d)}_", ""]
     return "\n".join(m)
 
