@@ -16,7 +16,7 @@ from .reduce import checks_for
 from .suite import DEFAULT_ALPHA, DEFAULT_SEED, RunResult, run_checks
 from .report.terminal import render_table
 
-__all__ = ["run_product", "assert_all_pass", "assert_caught"]
+__all__ = ["run_product", "assert_all_pass", "assert_caught", "assert_every_check_has_a_twin"]
 
 
 def run_product(
@@ -59,3 +59,27 @@ def assert_caught(product: Product | type[Product], case: str, **kwargs) -> RunR
             f"reference {o.reference}, z {o.z}"
         )
     return result
+
+
+def assert_every_check_has_a_twin(
+    shipped: Sequence[type[Product]], twins: Sequence[tuple[type[Product], str]]
+) -> None:
+    """Every declared check of every ``shipped`` product has a broken twin in ``twins``
+    (pairs ``(BrokenSubclass, case)``), and no twin names a case its product does not declare.
+
+    A twin belongs to the first class of its method resolution order that is in ``shipped``.
+    """
+    declared = {(cls, c.case) for cls in shipped for c in checks_for(cls)}
+    covered = set()
+    for broken, case in twins:
+        owner = next((k for k in broken.__mro__ if k in shipped), None)
+        if owner is None:
+            raise AssertionError(f"{broken.__name__} derives from none of the shipped products")
+        covered.add((owner, case))
+    missing = sorted(f"{c.__name__}/{k}" for c, k in declared - covered)
+    unknown = sorted(f"{c.__name__}/{k}" for c, k in covered - declared)
+    problems = ([f"no broken twin: {', '.join(missing)}"] if missing else []) + (
+        [f"twins of undeclared cases: {', '.join(unknown)}"] if unknown else []
+    )
+    if problems:
+        raise AssertionError("; ".join(problems))

@@ -15,7 +15,7 @@ import pytest
 from scipy import integrate, stats
 
 from limitcase import BlackScholes, Heston, ParamError
-from limitcase.testing import assert_all_pass, assert_caught
+from limitcase.testing import assert_all_pass, assert_caught, assert_every_check_has_a_twin
 from limitcase_payoffs.asians import (
     ArithmeticAsianCall,
     ArithmeticAsianPut,
@@ -175,15 +175,7 @@ def test_broken_twin_is_caught(broken, case):
 
 
 def test_every_declared_case_has_a_twin():
-    declared = {(p.__name__, c) for p in PRODUCTS for c in _cases(p)}
-    covered = {(b.__mro__[1].__name__, case) for b, case in TWINS}
-    assert declared == covered
-
-
-def _cases(cls):
-    from limitcase import checks_for
-
-    return {c.case for c in checks_for(cls)}
+    assert_every_check_has_a_twin(PRODUCTS, TWINS)
 
 
 class AsianAveragingOverPaths(ArithmeticAsianCall):

@@ -14,7 +14,7 @@ import math
 import numpy as np
 import pytest
 
-from limitcase import BlackScholes, Cashflows, price
+from limitcase import BlackScholes, price
 from limitcase.reduce import checks_for
 from limitcase.references import BGK_BETA, barrier_option
 from limitcase.testing import assert_all_pass, assert_caught

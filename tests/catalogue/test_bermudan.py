@@ -13,6 +13,8 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
+from limitcase.testing import assert_every_check_has_a_twin
+
 from limitcase import BlackScholes, ParamError, checks_for, price
 from limitcase.suite import run_checks
 from limitcase.references import lattice_price
@@ -121,9 +123,7 @@ def test_broken_twin_is_caught(twin, case, paths):
 
 
 def test_every_declared_case_has_a_twin():
-    declared = {(p.__name__, c.case) for p in PRODUCTS for c in checks_for(p)}
-    covered = {(t[0].__mro__[2].__name__, t[1]) for t in TWINS}
-    assert declared == covered
+    assert_every_check_has_a_twin(PRODUCTS, [(t[0], t[1]) for t in TWINS])
 
 
 # --- a published case ------------------------------------------------------------------

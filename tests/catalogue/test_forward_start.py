@@ -14,8 +14,8 @@ import numpy as np
 import pytest
 from scipy import integrate, stats
 
-from limitcase import BlackScholes, NoReference, ParamError, checks_for, price
-from limitcase.testing import assert_all_pass, assert_caught
+from limitcase import BlackScholes, NoReference, ParamError, price
+from limitcase.testing import assert_all_pass, assert_caught, assert_every_check_has_a_twin
 from limitcase_payoffs._common import period_starts
 from limitcase_payoffs.forward_start import Cliquet, ForwardStartCall, ForwardStartPut
 
@@ -108,9 +108,7 @@ def test_broken_twin_is_caught(broken, case):
 
 
 def test_every_declared_case_has_a_twin():
-    declared = {(p.__name__, c.case) for p in PRODUCTS for c in checks_for(p)}
-    covered = {(b.__mro__[1].__name__, case) for b, case in TWINS}
-    assert declared == covered
+    assert_every_check_has_a_twin(PRODUCTS, TWINS)
 
 
 def test_cliquet_test_side_payoff_is_the_shipped_one():

@@ -12,8 +12,8 @@ import math
 import numpy as np
 import pytest
 
-from limitcase import ParamError, checks_for
-from limitcase.testing import assert_all_pass, assert_caught
+from limitcase import ParamError
+from limitcase.testing import assert_all_pass, assert_caught, assert_every_check_has_a_twin
 from limitcase_payoffs._common import period_starts
 from limitcase_payoffs.lookbacks import FixedLookbackCall, FixedLookbackPut, FloatingLookbackCall, FloatingLookbackPut
 
@@ -166,9 +166,7 @@ def test_broken_twin_is_caught(broken, case):
 
 
 def test_every_declared_case_has_a_twin():
-    declared = {(p.__name__, c.case) for p in PRODUCTS for c in checks_for(p)}
-    covered = {(next(k for k in b.__mro__ if k in PRODUCTS).__name__, c) for b, c in TWINS}
-    assert declared == covered
+    assert_every_check_has_a_twin(PRODUCTS, TWINS)
 
 
 # --- the Brownian-bridge extreme -----------------------------------------------------------
