@@ -260,8 +260,6 @@ class _Leg:
             raise ParamError(
                 f"{self.name} is a single-asset product but the model simulates {model.n_assets} assets"
             )
-        ex = np.asarray(product.exercise_dates(), dtype=float).reshape(-1)
-        self.exercise_cols = np.searchsorted(self.dates, ex)
         self.s0 = model.initial() if product.multi_asset else float(model.initial()[0])
         self.dividend = model.dividend_yields() if product.multi_asset else float(model.dividend_yields()[0])
 

@@ -39,16 +39,16 @@ def products_in_module(module: ModuleType) -> list[type[Product]]:
     for _, obj in inspect.getmembers(module, inspect.isclass):
         if issubclass(obj, Product) and obj.__module__ == module.__name__ and not obj.abstract:
             found.append(obj)
-    found.sort(key=lambda c: inspect.getsourcelines(c)[1] if _has_source(c) else 0)
+    found.sort(key=_source_line)
     return found
 
 
-def _has_source(c: type) -> bool:
+def _source_line(c: type) -> int:
+    """Line where ``c`` is defined (0 when its source cannot be found), for source order."""
     try:
-        inspect.getsourcelines(c)
-        return True
+        return inspect.getsourcelines(c)[1]
     except (OSError, TypeError):
-        return False
+        return 0
 
 
 def _import_file(path: Path) -> ModuleType:

@@ -340,10 +340,6 @@ def _discount(node: ast.AST, parent: ast.AST | None, ctx: Context) -> list[tuple
     return [(ast.Constant(1.0), f"discount `{text}` dropped"), (squared, f"discount `{text}` squared")]
 
 
-def _inside(parent_chain: Sequence[ast.AST], kinds: tuple[type, ...]) -> bool:
-    return any(isinstance(p, kinds) for p in parent_chain)
-
-
 def _sign(node: ast.AST, parent: ast.AST | None, ctx: Context) -> list[tuple[ast.AST, str]]:
     if isinstance(node, ast.UnaryOp) and isinstance(node.op, ast.USub):
         if isinstance(node.operand, ast.Constant):
@@ -496,13 +492,6 @@ class Mutation:
     diff: str
     source: str
     params_involved: tuple[str, ...] = ()
-
-    @property
-    def new_function(self) -> ast.FunctionDef:
-        """The mutated function, parsed back from :attr:`source`."""
-        node = ast.parse(self.source).body[0]
-        assert isinstance(node, ast.FunctionDef)
-        return node
 
 
 def _preorder(root: ast.AST) -> Iterator[tuple[ast.AST, ast.AST | None, str | None, int | None]]:

@@ -8,7 +8,7 @@ import numpy as np
 import pytest
 from scipy import integrate, stats
 
-from limitcase import BLOCK, BlackScholes, PayoffError, Product, evaluate, price
+from limitcase import BLOCK, BlackScholes, PayoffError, evaluate, price
 from limitcase.engine import PathRule
 from limitcase_payoffs.asians import ArithmeticAsianCall
 from limitcase_payoffs.vanilla import EuropeanCall, EuropeanPut
@@ -34,7 +34,6 @@ def test_different_seeds_differ_and_cases_have_own_streams():
 
 def test_more_paths_extend_the_same_stream():
     """The first blocks of a longer run are the blocks of a shorter one."""
-    p = EuropeanCall()
     x = []
 
     class Spy(EuropeanCall):

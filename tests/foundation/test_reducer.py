@@ -6,7 +6,7 @@ import re
 import numpy as np
 import pytest
 
-from limitcase import NoReference, Product, Reduction, checks_for
+from limitcase import Product, Reduction, checks_for
 from limitcase.testing import assert_all_pass, assert_caught, run_product
 from limitcase.verdict import holm, p_value
 from limitcase_payoffs.asians import ArithmeticAsianCall

@@ -18,7 +18,6 @@ from limitcase.references.blackscholes import (
     _as_float,
     _bs_core,
     _check,
-    _check_kind,
     _market,
     _out,
 )
