@@ -80,3 +80,23 @@ __all__ += [
     "merton_charfn",
     "merton_jump_price",
 ]
+
+# numerical references from the contract terms (dates passed in by the caller)
+from limitcase.references.discrete_barriers import (
+    DISCRETE_BARRIER_KINDS,
+    DOUBLE_BARRIER_KINDS,
+    discrete_barrier_by_quadrature,
+    discrete_double_barrier_by_quadrature,
+)
+from limitcase.references.arithmetic_asians import arithmetic_asian, arithmetic_asian_continuous
+
+__all__ += [
+    # discrete barriers
+    "DISCRETE_BARRIER_KINDS",
+    "DOUBLE_BARRIER_KINDS",
+    "discrete_barrier_by_quadrature",
+    "discrete_double_barrier_by_quadrature",
+    # arithmetic Asians
+    "arithmetic_asian",
+    "arithmetic_asian_continuous",
+]
