@@ -14,6 +14,8 @@ import pytest
 NEW_MODULES = [
     "limitcase.references.discrete_barriers",
     "limitcase.references.arithmetic_asians",
+    "limitcase.references.barrier_series",
+    "limitcase.references.compound",
 ]
 ALLOWED_ROOTS = {"numpy", "scipy", "math", "typing", "__future__"}
 

@@ -100,3 +100,22 @@ __all__ += [
     "arithmetic_asian",
     "arithmetic_asian_continuous",
 ]
+from limitcase.references.barrier_series import (
+    binary_barrier,
+    double_barrier_option,
+    double_touch,
+    touch_option,
+)
+from limitcase.references.compound import bivariate_normal_cdf, complex_chooser, compound_option
+
+__all__ += [
+    # continuous double barriers, touches, binary barriers
+    "binary_barrier",
+    "double_barrier_option",
+    "double_touch",
+    "touch_option",
+    # compound options and the complex chooser
+    "bivariate_normal_cdf",
+    "complex_chooser",
+    "compound_option",
+]
