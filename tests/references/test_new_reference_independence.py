@@ -16,6 +16,7 @@ NEW_MODULES = [
     "limitcase.references.arithmetic_asians",
     "limitcase.references.barrier_series",
     "limitcase.references.compound",
+    "limitcase.references.corridor",
 ]
 ALLOWED_ROOTS = {"numpy", "scipy", "math", "typing", "__future__"}
 

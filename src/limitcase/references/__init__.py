@@ -119,3 +119,9 @@ __all__ += [
     "complex_chooser",
     "compound_option",
 ]
+from limitcase.references.corridor import range_accrual
+
+__all__ += [
+    # corridors
+    "range_accrual",
+]
