@@ -16,8 +16,7 @@ of order 1/2 of :math:`S_T`, finite for every law with a finite forward, so one 
 from __future__ import annotations
 
 import math
-from collections.abc import Callable
-from typing import Any
+from typing import Any, Callable
 
 import numpy as np
 
