@@ -190,3 +190,81 @@ def test_degeneration_gives_black_scholes_at_the_flattened_vol():
 def test_a_surface_that_is_not_one_is_refused():
     with pytest.raises(ParamError, match="not a VarianceSurface"):
         LocalVol(surface=0.2)
+
+
+# ---------------------------------------------------------------------------------------
+# discrete dividends (Buehler's affine model)
+
+from limitcase.models.localvol import DividendSchedule  # noqa: E402
+
+
+def _sim(model, times, n=100_000, seed=3):
+    rng = np.random.default_rng(seed)
+    z = rng.standard_normal((n, len(times), model.normals_per_step()))
+    return model.simulate(np.asarray(times), z, rng).s[:, :, 0]
+
+
+def test_no_dividends_gives_back_the_model_without_them():
+    plain = LocalVol(surface=skew_surface(), spot=SPOT, rate=RATE, dividend=DIV, substeps=2)
+    empty = plain.replace(dividends=DividendSchedule())
+    times = [0.3, 0.8, 1.2]
+    np.testing.assert_array_equal(_sim(plain, times, 2000), _sim(empty, times, 2000))
+
+
+def test_proportional_dividends_scale_every_path_after_the_ex_date():
+    """A proportional dividend beta at t_i: the price after t_i is the no-dividend price times
+    (1 - beta) on every path (D = 0, the forward carries the drop)."""
+    plain = LocalVol(surface=skew_surface(), spot=SPOT, rate=RATE, dividend=DIV, substeps=2)
+    divs = DividendSchedule(times=(0.4, 0.9), proportional=(0.02, 0.03))
+    paid = plain.replace(dividends=divs)
+    times = [0.3, 0.5, 1.0]
+    a, b = _sim(plain, times, 3000), _sim(paid, times, 3000)
+    np.testing.assert_allclose(b, a * np.array([1.0, 0.98, 0.98 * 0.97])[None, :], rtol=1e-12)
+
+
+def test_cash_dividends_on_a_flat_surface_price_as_the_escrowed_dividend_model():
+    """With X log-normal and every cash dividend paid before T, S(T) = F(T) X(T): the call
+    is Black-Scholes on the spot less the present value of the dividends (the escrowed
+    dividend model, e.g. Hull, "Options, Futures, and Other Derivatives", ch. on dividends),
+    computed here by the independent closed form."""
+    vol = 0.25
+    divs = DividendSchedule(times=(0.25, 0.75), cash=(2.0, 3.0))
+    model = LocalVol(surface=VarianceSurface.flat(vol, 1.0, RATE, DIV), dividends=divs, spot=SPOT, rate=RATE,
+                     dividend=DIV, substeps=1)
+    t = 1.0
+    s = _sim(model, [t], 400_000, seed=9)[:, 0]
+    pv = 2.0 * math.exp(-(RATE - DIV) * 0.25) + 3.0 * math.exp(-(RATE - DIV) * 0.75)
+    assert float(divs.pending(np.array([0.0]), RATE - DIV)[0]) == pytest.approx(pv, rel=1e-14)
+    for k in (85.0, 100.0, 115.0):
+        pay = np.maximum(s - k, 0.0) * math.exp(-RATE * t)
+        ref = black_scholes(SPOT - pv * math.exp(-DIV * 0.0), k, t, RATE, DIV, vol, "call")
+        se = pay.std(ddof=1) / math.sqrt(pay.size)
+        assert abs(pay.mean() - ref) < 4 * se, (k, pay.mean(), ref, se)
+
+
+def test_cash_dividends_keep_the_forward_and_the_floor():
+    divs = DividendSchedule(times=(0.2, 0.6, 1.1), cash=(1.5, 1.5, 1.5), proportional=(0.0, 0.01, 0.0))
+    model = LocalVol(surface=skew_surface(), dividends=divs, spot=SPOT, rate=RATE, dividend=DIV, substeps=4)
+    times = np.array([0.1, 0.2, 0.5, 0.6, 1.0, 1.5])
+    s = _sim(model, times, 200_000, seed=21)
+    fwd = model.forward(times)[:, 0]
+    z = (s.mean(axis=0) - fwd) / (s.std(axis=0, ddof=1) / math.sqrt(s.shape[0]))
+    assert np.all(np.abs(z) < 4.5), z  # 6 dates at 4.5 SE: a false alarm about 1 in 25,000
+    pend = divs.pending(times, RATE - DIV)
+    assert np.all(s > pend[None, :])  # never below the dividends still to come
+    # the forward drops by the dividend at the ex-date (hand recursion)
+    g = RATE - DIV
+    f02 = SPOT * math.exp(g * 0.2) - 1.5
+    f06 = (f02 * math.exp(g * 0.4)) * 0.99 - 1.5
+    assert fwd[1] == pytest.approx(f02, rel=1e-14) and fwd[3] == pytest.approx(f06, rel=1e-14)
+
+
+def test_bad_dividend_schedules_are_refused():
+    with pytest.raises(ParamError, match="increasing"):
+        DividendSchedule(times=(0.5, 0.3), cash=(1.0, 1.0))
+    with pytest.raises(ParamError, match="one of each"):
+        DividendSchedule(times=(0.5,), cash=(1.0, 2.0))
+    with pytest.raises(ParamError, match=r"\[0, 1\)"):
+        DividendSchedule(times=(0.5,), proportional=(1.0,))
+    with pytest.raises(ParamError, match="worth at least the spot"):
+        LocalVol(dividends=DividendSchedule(times=(0.5,), cash=(150.0,)))

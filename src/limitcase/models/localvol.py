@@ -18,6 +18,25 @@ audit to step through ``substeps``. On a flat surface the local volatility is co
 the log-Euler step is the exact Black-Scholes transition: that is the model's degeneration.
 
 ``substeps`` normals per grid interval; ``z[:, j, k]`` drives substep ``k`` of interval ``j``.
+
+Discrete dividends (keyword ``dividends``: a :class:`DividendSchedule` of cash amounts
+``alpha_i`` and proportions ``beta_i`` paid at ex-dates ``t_i``) follow the affine
+dividend model of Buehler (2007), "Volatility and dividends" (also Overhaus et al.,
+"Equity hybrid derivatives", Wiley 2007, chapter 2):
+
+    S(t) = (F(t) - D(t)) X(t) + D(t),
+
+where ``X`` is the local-volatility process above started at 1 with no drift after
+discounting at ``r - q`` (the surface is that of ``X``, the "pure" process), ``F`` the
+forward (it drops by ``beta_i F + alpha_i`` at ``t_i``) and ``D(t)`` the value at ``t`` of the
+cash dividends still to come, by the backward recursion ``D = 0`` after the last ex-date,
+``D(t_i-) = (D(t_i) + alpha_i) / (1 - beta_i)`` and growth at ``r - q`` in between. At an
+ex-date the simulated price drops by exactly ``beta_i S(t_i-) + alpha_i``, never below the
+dividends still to come, and ``E[S(t)] = F(t)``. With no dividends ``S = F X`` is the plain
+local-volatility model; with proportional dividends only, ``D = 0`` and the forward carries
+them (a Black-Scholes surface then gives the Black-Scholes price at the dividend-adjusted
+forward: an exact closed form). ``S(0) > D(0)`` is required: the dividends cannot be worth
+more than the stock.
 """
 
 from __future__ import annotations
@@ -27,13 +46,71 @@ from typing import Any, ClassVar
 
 import numpy as np
 
+from dataclasses import dataclass
+
 from ..errors import ParamError
 from ..params import Param
 from ..volsurface import VarianceSurface
 from .base import Degeneration, Model, Simulated
 from .gbm import BlackScholes
 
-__all__ = ["LocalVol"]
+__all__ = ["LocalVol", "DividendSchedule"]
+
+
+@dataclass(frozen=True, slots=True)
+class DividendSchedule:
+    """Discrete dividends: at ex-date ``times[i]`` the stock pays ``cash[i]`` plus
+    ``proportional[i]`` times its price just before."""
+
+    times: tuple[float, ...] = ()
+    cash: tuple[float, ...] = ()
+    proportional: tuple[float, ...] = ()
+
+    def __post_init__(self) -> None:
+        n = len(self.times)
+        cash = tuple(float(c) for c in self.cash) or (0.0,) * n
+        prop = tuple(float(b) for b in self.proportional) or (0.0,) * n
+        object.__setattr__(self, "times", tuple(float(t) for t in self.times))
+        object.__setattr__(self, "cash", cash)
+        object.__setattr__(self, "proportional", prop)
+        if len(cash) != n or len(prop) != n:
+            raise ParamError(f"DividendSchedule: {n} ex-dates but {len(cash)} cash amounts and "
+                             f"{len(prop)} proportions; give one of each per ex-date (0 where none)")
+        t = np.asarray(self.times)
+        if n and (t[0] <= 0 or np.any(np.diff(t) <= 0) or not np.all(np.isfinite(t))):
+            raise ParamError(f"DividendSchedule: ex-dates {list(self.times)} must be increasing and > 0")
+        if any(c < 0 or not math.isfinite(c) for c in cash):
+            raise ParamError(f"DividendSchedule: cash amounts {list(cash)} must be finite and >= 0")
+        if any(not 0.0 <= b < 1.0 for b in prop):
+            raise ParamError(f"DividendSchedule: proportions {list(prop)} must lie in [0, 1)")
+
+    def __bool__(self) -> bool:
+        return bool(self.times)
+
+    def pending(self, t: np.ndarray, growth: float) -> np.ndarray:
+        """``D(t)``: the value at ``t`` of the cash dividends paid after ``t`` (Buehler's
+        backward recursion), for each ``t``; on an ex-date that dividend counts as paid."""
+        t = np.asarray(t, dtype=float)
+        n = len(self.times)
+        before = np.zeros(n)  # D just before each ex-date
+        for i in range(n - 1, -1, -1):
+            carried = before[i + 1] * math.exp(-growth * (self.times[i + 1] - self.times[i])) if i + 1 < n else 0.0
+            before[i] = (carried + self.cash[i]) / (1.0 - self.proportional[i])
+        nxt = np.searchsorted(np.asarray(self.times), t, side="right")  # first ex-date after t
+        out = np.zeros_like(t)
+        has = nxt < n
+        idx = nxt[has]
+        out[has] = before[idx] * np.exp(-growth * (np.asarray(self.times)[idx] - t[has]))
+        return out
+
+    def forward(self, spot: float, t: np.ndarray, growth: float) -> np.ndarray:
+        """``F(t)``: the forward with the dividends paid up to and at ``t``."""
+        t = np.asarray(t, dtype=float)
+        out = spot * np.exp(growth * t)
+        for ti, a, b in zip(self.times, self.cash, self.proportional):
+            paid = t >= ti
+            out = np.where(paid, out * (1 - b) - a * np.exp(growth * (t - ti)), out)
+        return out
 
 
 def _flat_black_scholes(m: "LocalVol") -> BlackScholes:
@@ -49,6 +126,9 @@ class LocalVol(Model):
         The implied total-variance surface (keyword; default: a flat 20% surface at the
         model's spot, rate and dividend). Its market (spot, rate, dividend) is replaced
         by the model's, so the log-moneyness always refers to the simulated forward.
+    dividends
+        Discrete dividends (keyword; :class:`DividendSchedule`; default none), on top of
+        the continuous ``dividend`` yield.
     spot, rate, dividend
         Price today, short rate, continuous dividend yield (flat).
     substeps
@@ -72,8 +152,16 @@ class LocalVol(Model):
         ),
     )
 
-    def __init__(self, surface: VarianceSurface | None = None, **values: Any) -> None:
+    def __init__(self, surface: VarianceSurface | None = None, dividends: DividendSchedule | None = None,
+                 **values: Any) -> None:
         super().__init__(**values)
+        dividends = DividendSchedule() if dividends is None else dividends
+        if not isinstance(dividends, DividendSchedule):
+            raise ParamError(f"LocalVol: dividends={dividends!r} is not a DividendSchedule")
+        if dividends and float(dividends.pending(np.array([0.0]), self.rate - self.dividend)[0]) >= self.spot:
+            raise ParamError(f"LocalVol: the cash dividends are worth at least the spot {self.spot:g} today; "
+                             "lower the amounts or raise the spot")
+        object.__setattr__(self, "dividends", dividends)
         if surface is None:
             surface = VarianceSurface.flat(0.2, self.spot, self.rate, self.dividend)
         if not isinstance(surface, VarianceSurface):
@@ -87,24 +175,28 @@ class LocalVol(Model):
     def params(self) -> dict[str, Any]:
         out = super().params()
         out["surface"] = self.surface
+        out["dividends"] = self.dividends
         return out
 
     def replace(self, **changes: Any) -> "LocalVol":
         values = super().params()
         surface = changes.pop("surface", self.surface)
+        dividends = changes.pop("dividends", self.dividends)
         values.update(changes)
-        return type(self)(surface=surface, **values)
+        return type(self)(surface=surface, dividends=dividends, **values)
 
     def __eq__(self, other: object) -> bool:
         return type(self) is type(other) and self.params() == other.params()  # type: ignore[union-attr]
 
     def __hash__(self) -> int:
-        return hash((type(self).__name__, tuple(sorted((k, v) for k, v in super().params().items())), self.surface))
+        return hash((type(self).__name__, tuple(sorted((k, v) for k, v in super().params().items())), self.surface,
+                     self.dividends))
 
     def __repr__(self) -> str:
         p = super().params()
         inner = ", ".join(f"{k}={v!r}" for k, v in p.items())
-        return f"LocalVol({inner}, surface={self.surface!r})"
+        divs = f", dividends={self.dividends!r}" if self.dividends else ""
+        return f"{type(self).__name__}({inner}, surface={self.surface!r}{divs})"
 
     def normals_per_step(self) -> int:
         return int(self.substeps)
@@ -119,22 +211,33 @@ class LocalVol(Model):
         m = int(self.substeps)
         n_paths = z.shape[0]
         dt = np.diff(times, prepend=0.0)
-        mu = self.rate - self.dividend
-        x = np.full(n_paths, math.log(self.spot))
-        log_fwd0 = math.log(self.spot)
+        g = self.rate - self.dividend
+        x = np.zeros(n_paths)  # log X, the pure process: a martingale started at 1
         out = np.empty((n_paths, times.size, 1))
         var = np.empty((n_paths, times.size, 1))
+        divs = self.dividends
+        fwd = divs.forward(self.spot, times, g) if divs else self.spot * np.exp(g * times)
+        pend = divs.pending(times, g) if divs else np.zeros(times.size)
         t = 0.0
         for j in range(times.size):
             h = dt[j] / m
             acc = np.zeros(n_paths)
             for k in range(m):
-                tm = t + 0.5 * h
-                lv = self.surface.local_variance(x - (log_fwd0 + mu * t), tm)
-                x += (mu - 0.5 * lv) * h + np.sqrt(lv * h) * z[:, j, k]
+                lv = self.surface.local_variance(x, t + 0.5 * h)
+                x += -0.5 * lv * h + np.sqrt(lv * h) * z[:, j, k]
                 acc += lv * h
                 t += h
             t = float(times[j])  # no drift of the clock from summing substeps
-            out[:, j, 0] = np.exp(x)
+            if divs:
+                out[:, j, 0] = (fwd[j] - pend[j]) * np.exp(x) + pend[j]
+            else:
+                out[:, j, 0] = np.exp(x + math.log(fwd[j]))
             var[:, j, 0] = acc
         return Simulated(s=out, step_var=var)
+
+    def forward(self, t: Any) -> np.ndarray:
+        """Forward prices, the discrete dividends included, shape ``(len(t), 1)``."""
+        t = np.asarray(t, dtype=float).reshape(-1)
+        if not self.dividends:
+            return super().forward(t)
+        return self.dividends.forward(self.spot, t, self.rate - self.dividend).reshape(-1, 1)
