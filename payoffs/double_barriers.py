@@ -31,6 +31,7 @@ import numpy as np
 
 from limitcase import Bound, Identity, Monotone, Param, ParamError, Product, Reduction
 from limitcase.references import black_scholes, discrete_double_barrier_by_quadrature
+from limitcase.references.schedules import equal_steps
 
 from ._common import bs_inputs, even_dates, own_closed_form
 from .barriers import DownAndInCall, DownAndInPut, DownAndOutCall, DownAndOutPut
@@ -125,8 +126,7 @@ class _DoubleBarrier(Product):
                 return self.rebate * math.exp(-rate * self.maturity)
             return black_scholes(spot, self.strike, self.maturity, rate, dividend, vol, "call" if self.call else "put")
         # the monitoring dates from the terms: n equal steps up to the maturity
-        n = int(self.monitoring)
-        times = self.maturity * np.arange(1, n + 1, dtype=float) / n
+        times = equal_steps(self.maturity, self.monitoring)
         return discrete_double_barrier_by_quadrature(
             kind, spot, self.strike, self.lower, self.upper, times, self.maturity, rate, dividend, vol,
             rebate=self.rebate, rebate_at_hit=False,

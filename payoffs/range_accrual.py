@@ -22,6 +22,7 @@ import numpy as np
 
 from limitcase import Bound, Identity, Monotone, Param, ParamError, Product, Reduction
 from limitcase.references import range_accrual
+from limitcase.references.schedules import equal_steps
 
 from ._common import bs_inputs, even_dates, own_closed_form
 from .digitals import CashOrNothingCall
@@ -104,8 +105,7 @@ class RangeAccrual(Product):
 
     def reference(self, model):
         spot, rate, dividend, vol = bs_inputs(model, self)
-        n = int(self.fixings)
-        times = self.maturity * np.arange(1, n + 1, dtype=float) / n  # the fixings, from the terms
+        times = equal_steps(self.maturity, self.fixings)  # the fixings, from the terms
         return range_accrual(spot, self.lower, self.upper, times, self.maturity, rate, dividend, vol, self.cash)
 
     def reference_source(self) -> str:

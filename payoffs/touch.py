@@ -34,6 +34,7 @@ from dataclasses import dataclass
 from limitcase import Cashflows, Identity, Monotone, Param, Product, Reduction
 from limitcase.reduce import Check, Relation
 from limitcase.references import discrete_barrier_by_quadrature
+from limitcase.references.schedules import equal_steps
 
 from ._common import bs_inputs, even_dates, own_closed_form
 from .vanilla import ZeroCouponBond
@@ -98,8 +99,7 @@ class _Touch(Product):
         touched_today = spot >= self.barrier if self.up else spot <= self.barrier
         if touched_today:
             return self.cash * (1.0 if at_hit else math.exp(-rate * self.maturity))
-        n = int(self.monitoring)
-        times = self.maturity * np.arange(1, n + 1, dtype=float) / n  # the dates, from the terms
+        times = equal_steps(self.maturity, self.monitoring)  # the dates, from the terms
         kind = "up-and-out-put" if self.up else "down-and-out-put"
         # a put struck at 0 pays nothing: only the rebate C, paid when the barrier is touched
         return float(discrete_barrier_by_quadrature(

@@ -33,6 +33,7 @@ import numpy as np
 
 from limitcase import Bound, Identity, Monotone, Param, ParamError, Product, Reduction
 from limitcase.references import black_scholes, discrete_barrier_by_quadrature
+from limitcase.references.schedules import equal_steps
 
 from ._common import bs_inputs, even_dates, own_closed_form
 from .barriers import DownAndInPut, DownAndOutPut, UpAndInCall, UpAndOutCall
@@ -120,8 +121,7 @@ class _Window(Product):
                 return self.rebate * math.exp(-rate * self.maturity)
             return black_scholes(spot, self.strike, self.maturity, rate, dividend, vol, option)
         # the monitoring dates from the terms, kept where they fall in the window
-        n = int(self.monitoring)
-        times = self.maturity * np.arange(1, n + 1, dtype=float) / n
+        times = equal_steps(self.maturity, self.monitoring)
         times = times[(times >= self.window_start - EPS) & (times <= self.window_end + EPS)]
         return discrete_barrier_by_quadrature(
             kind, spot, self.strike, self.barrier, times, self.maturity, rate, dividend, vol,
