@@ -139,10 +139,14 @@ def at_hit_by_quadrature(s, h, t, r, q, v):
     return val
 
 
-@pytest.mark.parametrize("direction,h", [("down", 90.0), ("up", 112.0)])
-def test_one_touch_at_hit_matches_first_passage_quadrature(direction, h):
-    got = touch_option("one-touch", direction, 100.0, h, 0.8, 0.05, 0.02, 0.27, 3.0, at_hit=True)
-    assert got == pytest.approx(3.0 * at_hit_by_quadrature(100.0, h, 0.8, 0.05, 0.02, 0.27), abs=1e-10)
+@pytest.mark.parametrize("direction,h,t,r,q,v", [
+    ("down", 90.0, 0.8, 0.05, 0.02, 0.27),
+    ("up", 112.0, 0.8, 0.05, 0.02, 0.27),
+    ("down", 90.0, 2.0, -0.03, -0.05, 0.1),  # r < 0 with mu^2 + 2r/sigma^2 < 0: lambda imaginary
+])
+def test_one_touch_at_hit_matches_first_passage_quadrature(direction, h, t, r, q, v):
+    got = touch_option("one-touch", direction, 100.0, h, t, r, q, v, 3.0, at_hit=True)
+    assert got == pytest.approx(3.0 * at_hit_by_quadrature(100.0, h, t, r, q, v), abs=1e-10)
 
 
 @pytest.mark.parametrize("direction,h", [("down", 90.0), ("up", 112.0)])

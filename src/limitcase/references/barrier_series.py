@@ -13,7 +13,7 @@ import math
 from typing import Any
 
 import numpy as np
-from scipy.special import ndtr
+from scipy.special import log_ndtr, ndtr
 
 from limitcase.errors import ParamError
 
@@ -56,7 +56,10 @@ def _market(func: str, s: Any, t: Any, r: Any, q: Any, v: Any) -> tuple[float, .
 
 
 def _loop(args: tuple[Any, ...], one: Any) -> float | np.ndarray:
-    arrs = np.broadcast_arrays(*[np.asarray(a, dtype=float) for a in args])
+    try:
+        arrs = np.broadcast_arrays(*[np.asarray(a, dtype=float) for a in args])
+    except (TypeError, ValueError) as exc:
+        raise ParamError(f"numeric arguments {args!r} are not numbers or do not broadcast: {exc}") from exc
     out = np.empty(arrs[0].shape)
     for idx in np.ndindex(*out.shape):
         out[idx] = one(*[float(a[idx]) for a in arrs])
@@ -323,17 +326,12 @@ def _at_hit_cash(down: bool, s: float, h: float, t: float, r: float, q: float, v
     lam = complex(mu * mu + 2.0 * r / (v * v)) ** 0.5
     lhs = math.log(h / s)
     z = lhs / sd + lam * sd
-    # N of a complex argument does not arise: lam is real whenever r >= 0; for r < 0 with
-    # an imaginary lam the two terms are conjugate and the sum is real (Rubinstein-Reiner)
-    if abs(lam.imag) > 0.0:
-        raise ParamError(
-            f"rate={r!r} with dividend={q!r} and vol={v!r} makes the hitting-time transform "
-            f"complex in touch_option; pass at_hit=False (pay at expiry) for such rates"
-        )
-    lr = lam.real
-    zr = z.real
-    return float(math.exp((mu + lr) * lhs) * ndtr(eta * zr)
-                 + math.exp((mu - lr) * lhs) * ndtr(eta * zr - 2.0 * eta * lr * sd))
+    # r < 0 can make lam imaginary: the two terms are then complex conjugates and their sum is
+    # real (the transform is even in lam), so evaluate in complex arithmetic, N through the
+    # complex log_ndtr, and keep the real part
+    first = np.exp((mu + lam) * lhs + log_ndtr(eta * z))
+    second = np.exp((mu - lam) * lhs + log_ndtr(eta * z - 2.0 * eta * lam * sd))
+    return float(np.real(first + second))
 
 
 def touch_option(
@@ -379,7 +377,9 @@ def touch_option(
         z = \frac{\ln(H/S)}{\sigma\sqrt T} + \lambda\sigma\sqrt T,
 
     :math:`\mu = (b - \sigma^2/2)/\sigma^2`, :math:`\lambda = \sqrt{\mu^2 + 2r/\sigma^2}`,
-    :math:`\eta = 1` (down), -1 (up). A spot on or past the barrier has touched.
+    :math:`\eta = 1` (down), -1 (up). When r < 0 makes :math:`\lambda` imaginary the two
+    terms are conjugate and their sum, evaluated in complex arithmetic, is real. A spot on
+    or past the barrier has touched.
 
     References
     ----------

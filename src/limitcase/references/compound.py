@@ -35,7 +35,10 @@ def _num(name: str, value: Any, func: str, *, low: float = -math.inf, low_open: 
 
 
 def _loop(args: tuple[Any, ...], one: Any) -> float | np.ndarray:
-    arrs = np.broadcast_arrays(*[np.asarray(a, dtype=float) for a in args])
+    try:
+        arrs = np.broadcast_arrays(*[np.asarray(a, dtype=float) for a in args])
+    except (TypeError, ValueError) as exc:
+        raise ParamError(f"numeric arguments {args!r} are not numbers or do not broadcast: {exc}") from exc
     out = np.empty(arrs[0].shape)
     for idx in np.ndindex(*out.shape):
         out[idx] = one(*[float(a[idx]) for a in arrs])

@@ -259,7 +259,10 @@ def _knock_out(
 
 def _loop(func: str, args: tuple[Any, ...], one: Any) -> float | np.ndarray:
     """Broadcast the numeric arguments and call ``one`` per element."""
-    arrs = np.broadcast_arrays(*[np.asarray(a, dtype=object if a is None else float) for a in args])
+    try:
+        arrs = np.broadcast_arrays(*[np.asarray(a, dtype=float) for a in args])
+    except (TypeError, ValueError) as exc:
+        raise ParamError(f"the numeric arguments of {func} are not numbers or do not broadcast: {exc}") from exc
     out = np.empty(arrs[0].shape)
     for idx in np.ndindex(*out.shape):
         out[idx] = one(*[float(a[idx]) for a in arrs])
