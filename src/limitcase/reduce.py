@@ -23,8 +23,7 @@ import math
 from dataclasses import dataclass, field
 from typing import Any, Callable, Mapping, Sequence
 
-
-from .engine import PathRule
+from .checks import Check, PathRule
 from .errors import LimitcaseError, NoReference, ParamError
 from .models.base import Model
 from .product import Product
@@ -46,32 +45,6 @@ Value = Any  # a number, or a callable of the product giving one
 
 def _resolve(value: Value, product: Product) -> Any:
     return value(product) if callable(value) else value
-
-
-@dataclass(frozen=True)
-class Check:
-    """One thing to verify by Monte Carlo: legs priced on common paths, path rules that
-    must hold on every path, and a statistic ``sum(weights * prices)`` compared with
-    ``target`` under ``sense`` (``==``, ``>=`` or ``<=``) and a declared allowance."""
-
-    product: str
-    case: str
-    kind: str
-    legs: tuple[Product, ...] = ()
-    model: Model | None = None
-    weights: tuple[float, ...] = ()
-    target: float = 0.0
-    target_source: str = ""
-    sense: str = "=="
-    rules: tuple[PathRule, ...] = ()
-    allowance: float = 0.0
-    allowance_reason: str = ""
-    note: str = ""
-    error: str | None = None
-
-    @property
-    def label(self) -> str:
-        return f"{self.product}/{self.case}"
 
 
 @dataclass(frozen=True)

@@ -35,17 +35,27 @@ from __future__ import annotations
 
 import math
 import multiprocessing
-import os
 import warnings
 from dataclasses import dataclass, field, replace
 from typing import Any, Callable, Sequence
 
-import numpy as np
-
-from .engine import BLOCK, DEFAULT_REGRESSION_PATHS, BlockResult, Case, Joint, Setup, case_key, coerce_seed
+from .case import BlockResult, Case, Setup
+from .checks import Check
+from .controls import gather_controls
 from .errors import LimitcaseError, ParamError
-from .reduce import Check
-from .sampling import METHODS, parse_method
+from .estimates import Joint
+from .sampling import parse_method
+from .settings import (
+    DEFAULT_ALPHA,
+    DEFAULT_MAX_PATHS,
+    DEFAULT_METHOD,
+    DEFAULT_PATHS,
+    DEFAULT_REGRESSION_PATHS,
+    DEFAULT_SEED,
+    default_workers,
+    validate_run,
+)
+from .streams import BLOCK, case_key
 from .verdict import Outcome, detectable_bias, finalise, p_value
 
 __all__ = [
@@ -59,12 +69,10 @@ __all__ = [
     "DEFAULT_SEED",
     "DEFAULT_ALPHA",
     "DEFAULT_MAX_PATHS",
+    "DEFAULT_METHOD",
+    "decide",
 ]
 
-DEFAULT_PATHS = 100_000
-DEFAULT_SEED = 20261201
-DEFAULT_ALPHA = 0.01
-DEFAULT_MAX_PATHS = 4_000_000
 MAX_GROWTH = 8.0
 """A precision round multiplies a check's paths by at most this factor."""
 SAFETY = 1.05
@@ -132,14 +140,6 @@ def parse_precision(value: "str | float | Precision") -> Precision:
             "(e.g. 0.01) or relative to the reference with a trailing % (e.g. 0.5%)"
         )
     return Precision(number / 100.0 if relative else number, relative)
-
-
-def default_workers() -> int:
-    """The cores this process may use."""
-    try:
-        return max(1, len(os.sched_getaffinity(0)))
-    except (AttributeError, OSError):  # pragma: no cover - not Linux
-        return max(1, os.cpu_count() or 1)
 
 
 # ----------------------------------------------------------------------------------------
@@ -256,8 +256,6 @@ def _case_for(check: Check, seed: int, method: str, regression_paths: int) -> Ca
     spec = parse_method(method)
     controls = None
     if spec is None or spec.control:
-        from .engine import gather_controls
-
         legs = [leg for w, leg in zip(check.weights, check.legs) if w]
         controls, notes = gather_controls(legs, check.model)
     else:
@@ -546,20 +544,6 @@ def _outcome(it: _Item, seed: int, precision: Precision | None, alpha: float) ->
 # public entry points
 
 
-def _validate(paths: int, seed: int, alpha: float, method: str, max_paths: int, workers: int) -> None:
-    coerce_seed(seed)
-    if not isinstance(paths, (int, np.integer)) or isinstance(paths, bool) or paths < 2:
-        raise ParamError(f"paths={paths!r} must be an integer >= 2")
-    if not 0.0 < alpha < 1.0:
-        raise ParamError(f"alpha={alpha!r} must lie in (0, 1); it is the run's family-wise false-alarm rate")
-    if method not in METHODS:
-        raise ParamError(f"method={method!r} is not a sampling method; use one of {', '.join(METHODS)}")
-    if not isinstance(max_paths, (int, np.integer)) or max_paths < 2:
-        raise ParamError(f"max_paths={max_paths!r} must be an integer >= 2 (the path budget of each check)")
-    if not isinstance(workers, (int, np.integer)) or workers < 1:
-        raise ParamError(f"workers={workers!r} must be an integer >= 1")
-
-
 def run_check(
     check: Check,
     *,
@@ -567,7 +551,7 @@ def run_check(
     seed: int,
     regression_paths: int = DEFAULT_REGRESSION_PATHS,
     on_batch: Callable[[int], None] | None = None,
-    method: str = "plain",
+    method: str = DEFAULT_METHOD,
     precision: "str | float | Precision | None" = None,
     max_paths: int = DEFAULT_MAX_PATHS,
     alpha: float = DEFAULT_ALPHA,
@@ -578,7 +562,8 @@ def run_check(
     With ``precision``, the detectable bias is computed at ``alpha`` over a run of
     ``family`` checks (the Holm family the check will be part of).
     """
-    _validate(paths, seed, alpha, method, max_paths, 1)
+    validate_run(paths=paths, seed=seed, alpha=alpha, method=method, max_paths=max_paths, workers=1,
+                 regression_paths=regression_paths)
     prec = parse_precision(precision) if precision is not None else None
     if prec is None and check.error is None:
         base = dict(product=check.product, case=check.case, kind=check.kind, paths=paths, seed=seed,
@@ -612,7 +597,7 @@ def run_checks(
     alpha: float = DEFAULT_ALPHA,
     regression_paths: int = DEFAULT_REGRESSION_PATHS,
     progress: Callable[[int, int], None] | None = None,
-    method: str = "plain",
+    method: str = DEFAULT_METHOD,
     precision: "str | float | Precision | None" = None,
     max_paths: int = DEFAULT_MAX_PATHS,
     workers: int = 1,
@@ -632,8 +617,8 @@ def run_checks(
     progress
         ``progress(done, total)`` after each check finishes.
     method
-        Sampling method, one of :data:`limitcase.sampling.METHODS` (``"auto"``: control
-        variates with Sobol points or antithetic pairs).
+        Sampling method, one of :data:`limitcase.sampling.METHODS` (default ``"auto"``, as
+        on the command line: control variates with Sobol points or antithetic pairs).
     precision
         A detectable-bias target (``0.01`` or ``"0.5%"``, see :func:`parse_precision`):
         paths are added until each check reaches it or spends ``max_paths``.
@@ -642,7 +627,8 @@ def run_checks(
     workers
         Processes sharing the work (1: this one). The numbers do not depend on it.
     """
-    _validate(paths, seed, alpha, method, max_paths, workers)
+    validate_run(paths=paths, seed=seed, alpha=alpha, method=method, max_paths=max_paths, workers=workers,
+                 regression_paths=regression_paths)
     prec = parse_precision(precision) if precision is not None else None
     info: dict = {}
     outcomes = _execute(checks, paths=paths, seed=seed, alpha=alpha, regression_paths=regression_paths,
