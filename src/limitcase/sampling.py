@@ -65,6 +65,7 @@ from scipy.special import ndtri
 from scipy.stats import qmc
 
 from .errors import ParamError
+from .settings import METHODS
 from .moments import MomentAccumulator, Moments, ScrambleAccumulator, moment_summary
 from .streams import BLOCK, SOBOL_TAG
 
@@ -90,9 +91,6 @@ __all__ = [
     "make_sampler",
     "as_sampler",
 ]
-
-METHODS = ("auto", "plain", "antithetic", "control", "sobol", "control+antithetic", "control+sobol")
-"""Names accepted by ``--method`` and by ``method=`` of :func:`limitcase.engine.evaluate`."""
 
 SCRAMBLES = 32
 """Independent scrambles of a Sobol run: the standard error has ``SCRAMBLES - 1`` degrees of freedom."""
