@@ -1,6 +1,6 @@
 """Where the normals come from, and the estimator that goes with each source.
 
-The engine simulates paths in blocks of ``BLOCK`` paths (see :mod:`limitcase.engine`); a
+The engine simulates paths in blocks of ``BLOCK`` paths (see :mod:`limitcase.streams`); a
 *sampler* fills the block's normals ``z`` (shape ``(paths, dates, normals_per_step)``) and
 says how the block's per-path present values become an estimate with a standard error.
 The model never knows which sampler fed it.
@@ -34,7 +34,7 @@ Methods (``--method`` on ``check``)
 ``auto``
     Control variates, with Sobol points where they apply and antithetic pairs otherwise.
     Under Sobol points a control is applied to a check's statistic only when it explains
-    at least 90% of its variance on the pilot (``engine.SOBOL_CONTROL_R2``): a weak control
+    at least 90% of its variance on the pilot (``controls.SOBOL_CONTROL_R2``): a weak control
     can add more quasi-random error than it removes. Measured (``benchmarks/efficiency.py
     --others``): auto is the best method or within a factor 0.7 of it on an arithmetic
     Asian, a barrier, a digital, a lookback and a Bermudan.

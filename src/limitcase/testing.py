@@ -4,6 +4,14 @@ that a deliberately broken twin is caught.
 Used by the project's own tests and meant for a team's: ``assert_all_pass(MyProduct)`` in
 a test function runs every reduction and relation of ``MyProduct`` with Holm's correction
 over its checks.
+
+Defaults are those of ``limitcase check`` (:mod:`limitcase.settings`: 100,000 paths per
+check, method ``auto``, the same seed and alpha), so a product that passes here passes on
+the command line and the reverse. Measured on six catalogue products (European, arithmetic
+Asian, up-and-out, Bermudan, cash-or-nothing, floating lookback; one process, CPU time):
+40,000 plain paths 1.8 s, 40,000 auto 1.5 s, 100,000 plain 2.5 s, 100,000 auto 2.6 s; the
+fixed costs (the Longstaff-Schwartz pilot, the control pilot) weigh as much as the paths.
+Pass ``paths=`` for a quicker, less powerful run.
 """
 
 from __future__ import annotations

@@ -4,8 +4,9 @@ Every ``import`` and ``from ... import`` counts, wherever it is written (module 
 inside a function: a lazy import is still a dependency), except those under
 ``if TYPE_CHECKING:`` (never executed). Relative imports are resolved against the
 importing module's package. ``from pkg import name`` depends on ``pkg.name`` when that is a
-module of ours, else on ``pkg``. A module's implicit import of its parent packages is not
-counted (every submodule would otherwise depend on ``limitcase/__init__.py``).
+module of ours, else on ``pkg``. Importing ``limitcase.a.b`` also runs the package
+``limitcase.a`` first, so that counts too; the package root ``limitcase`` does not (every
+module would depend on it) nor do the importer's own packages (already running).
 """
 
 from __future__ import annotations
@@ -107,6 +108,14 @@ def dependencies(name: str) -> dict[str, list[ImportRef]]:
             continue
         if target != name:
             deps.setdefault(target, []).append(ref)
+        # importing a.b.c runs the packages a.b first: count them, except the package root
+        # (every module would depend on it) and the importer's own packages (already running)
+        parts = target.split(".")
+        own = {".".join(name.split(".")[:k]) for k in range(1, name.count(".") + 1)}
+        for k in range(2, len(parts)):
+            parent = ".".join(parts[:k])
+            if parent in ours and parent not in own and parent != name:
+                deps.setdefault(parent, []).append(ref)
     return deps
 
 

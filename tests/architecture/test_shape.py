@@ -45,6 +45,7 @@ def test_the_reader_sees_lazy_relative_and_absolute_imports(tmp_path, monkeypatc
     (pkg / "sub" / "__init__.py").write_text("")
     (pkg / "sub" / "c.py").write_text(
         "from typing import TYPE_CHECKING\nif TYPE_CHECKING:\n    from ..a import thing\nfrom .. import b\n")
+    (pkg / "d.py").write_text("from .sub.c import b\n")
     monkeypatch.setattr(reader, "SRC", tmp_path / "src")
     monkeypatch.setattr(reader, "ROOT", pkg)
     for fn in (reader.modules, reader.imports_of, reader.graph):
@@ -53,6 +54,7 @@ def test_the_reader_sees_lazy_relative_and_absolute_imports(tmp_path, monkeypatc
         g = reader.graph()
         assert g["demo.a"] == {"demo.b"} and g["demo.b"] == {"demo.a"}  # the lazy import counts
         assert g["demo.sub.c"] == {"demo.b"}  # TYPE_CHECKING imports do not
+        assert g["demo.d"] == {"demo.sub.c", "demo.sub"}  # importing sub.c runs sub/__init__.py
         assert reader.cycles(g) == [["demo.a", "demo.b"]]
     finally:
         for fn in (reader.modules, reader.imports_of, reader.graph):
@@ -99,18 +101,20 @@ def test_references_import_nothing_of_the_engine_or_the_catalogue(module):
 PRICING = {
     "engine", "case", "legs", "controls", "sampling", "moments", "suite", "exercise", "references",
     "models", "calibrate", "audits", "mutate", "sweep", "symbolic", "reduce", "workers", "quotes",
-    "loader", "testing", "dossier_data",
+    "loader", "testing", "document.build", "workers",
 }
-"""Modules (or packages) that price, simulate, fit, load products or build checks. The
-library builds what report/ renders; report/ never reaches them, not even through the
-package's ``__init__`` (which imports the engine)."""
+"""Modules (or packages) that price, simulate, fit, load products, build checks or run
+them in worker processes (``document.build`` builds the dossier's records by pricing;
+``document.records`` only holds them). The library builds what report/ renders; report/
+never reaches these, not even through a package's ``__init__`` (``limitcase/__init__.py``
+imports the engine)."""
 
 
 def _prices(module: str) -> bool:
     if module == PKG:
         return True  # limitcase/__init__.py imports the engine
-    parts = module.split(".")
-    return len(parts) > 1 and parts[1] in PRICING
+    rest = module.removeprefix(PKG + ".")
+    return any(rest == p or rest.startswith(p + ".") for p in PRICING)
 
 
 _REPORT_PENDING = {
