@@ -175,7 +175,7 @@ class Case:
         pilot_cov = None
         if self.controls:
             acc = MomentAccumulator()
-            buf = self._buffer()
+            buf = self.buffer()
             for b in range(CONTROL_PILOT_BLOCKS):
                 g = block_generator(self.seed, self.key, ROLE_CONTROL_PILOT, b)
                 z = buf[:BLOCK]
@@ -187,8 +187,11 @@ class Case:
         return Setup(tuple(policies), pilot_cov)
 
     # -- blocks --------------------------------------------------------------------------
-    def _buffer(self, size: int = BLOCK) -> np.ndarray:
+    def buffer(self, size: int = BLOCK) -> np.ndarray:
+        """A normals buffer for blocks of up to ``size`` paths, to reuse across blocks."""
         return np.empty((size, len(self.grid), self.k))
+
+    _buffer = buffer  # the name before the engine was split
 
     def _values(self, policies: Sequence[Any], z: np.ndarray, g: np.random.Generator) -> np.ndarray:
         sim = self.model.simulate(self.grid, z, g)
@@ -210,7 +213,7 @@ class Case:
     def blocks(self, setup: Setup, first: int, last: int, paths: int,
                buffer: np.ndarray | None = None) -> list[BlockResult]:
         """Blocks ``first .. last - 1`` of a run of ``paths`` paths (already rounded)."""
-        buf = buffer if buffer is not None else self._buffer(min(BLOCK, paths))
+        buf = buffer if buffer is not None else self.buffer(min(BLOCK, paths))
         out = []
         self.sampler.prepare(first, last, paths)
         for b in range(first, last):

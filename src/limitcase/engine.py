@@ -35,7 +35,7 @@ priced on the same paths, and a statistic ``Y = sum_i w_i V_i`` is estimated by
 
     Y_cv = mean(Y) - beta . (mean(C) - mu),   beta = Cov(C)^+ Cov(C, Y),
 
-with ``beta`` from pilot paths of their own (role 3), independent of the pricing paths: then
+with ``beta`` from pilot paths of their own (``ROLE_CONTROL_PILOT``), independent of the pricing paths: then
 ``E[Y_cv] = E[Y]`` exactly, and the standard error is that of the per-path values
 ``Y - beta . C`` (Glasserman 2004, *Monte Carlo Methods in Financial Engineering*,
 Section 4.1; the pilot removes the O(1/n) bias of a coefficient fitted on the same paths).
@@ -152,7 +152,7 @@ def evaluate(
     blocks = case.blocks_for(n)
     per_batch = max(1, Case.blocks_for(batch))
     acc = case.accumulator()
-    buf = case._buffer(min(BLOCK, n))
+    buf = case.buffer(min(BLOCK, n))
     for b0 in range(0, blocks, per_batch):
         for res in case.blocks(setup, b0, min(blocks, b0 + per_batch), n, buf):
             acc.add(res)

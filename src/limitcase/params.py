@@ -7,6 +7,7 @@ that may go to ``inf``, a number of fixings that may go down to ``1``).
 
 from __future__ import annotations
 
+import inspect
 import math
 import numbers
 from dataclasses import dataclass, field
@@ -199,8 +200,19 @@ def _check_default(cls: type, name: str, spec: Param) -> None:
     except ParamError as exc:
         raise DeclarationError(
             f"{cls.__name__}: the default of parameter {name!r} is invalid: {exc} "
-            f"(declared as {name} = Param({spec.default!r}, ...) on {cls.__qualname__} in module {cls.__module__})"
+            f"(declared as {name} = Param({spec.default!r}, ...) on {cls.__qualname__} in {_where(cls)})"
         ) from None
+
+
+def _where(cls: type) -> str:
+    """``module m (path/file.py, line n)`` of a class, as far as it can be found."""
+    text = f"module {cls.__module__}"
+    try:
+        path = inspect.getsourcefile(cls)
+        line = inspect.getsourcelines(cls)[1]
+    except (OSError, TypeError):
+        return text
+    return f"{text} ({path}, line {line})"
 
 
 def _short(v: Any) -> str:

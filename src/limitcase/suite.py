@@ -467,7 +467,7 @@ def run_check(
             setup = case.setup()
             n = case.round_paths(paths)
             acc = case.accumulator()
-            buf = case._buffer(min(BLOCK, n))
+            buf = case.buffer(min(BLOCK, n))
             for b in range(Case.blocks_for(n)):
                 for r in case.blocks(setup, b, b + 1, n, buf):
                     acc.add(r)

@@ -102,6 +102,7 @@ def test_parameter_default_outside_its_range_says_it_is_the_default():
     text = str(info.value)
     assert text.startswith("Negative: the default of parameter 'rebate' is invalid: rebate=-1.0 is outside [0, inf]")
     assert "declared as rebate = Param(-1.0, ...)" in text and __name__ in text
+    assert "test_declarations.py, line " in text  # where the class is
 
 
 def test_integer_parameter_with_fractional_default():
