@@ -228,9 +228,9 @@ class Product(Parametrised):
 def validate_declarations(cls: type) -> None:
     """Validate a product class's ``reductions`` and ``relations`` when it is defined.
 
-    Each declaration checks itself (:meth:`limitcase.reduce.Reduction.validate_on`, :meth:`limitcase.reduce.Relation.validate_on`:
-    parameters that exist, a direction of +1 or -1, a side of ``>=`` or ``<=``, ...); then no
-    two checks may share a name. Raises :class:`DeclarationError` naming the class and the
+    Each declaration checks itself (``validate_on`` of :class:`limitcase.reduce.Reduction` and
+    :class:`limitcase.reduce.Relation`: parameters that exist, a direction of +1 or -1, a side
+    of ``>=`` or ``<=``, ...); then no two checks may share a name. Raises :class:`DeclarationError` naming the class and the
     declaration, with a close-match suggestion for a misspelt parameter.
     """
     seen: dict[str, str] = {}
@@ -240,6 +240,8 @@ def validate_declarations(cls: type) -> None:
             raise DeclarationError(f"{cls.__name__}.{attr} = {declared!r}; give a tuple of declarations")
         for i, decl in enumerate(declared):
             kind = getattr(decl, "declaration_kind", None)
+            if kind is None and attr == "relations" and callable(getattr(decl, "checks", None)):
+                continue  # a relation of the user's own, not derived from Relation: nothing to check
             if kind is None or not callable(getattr(decl, "validate_on", None)):
                 raise DeclarationError(
                     f"{cls.__name__}.{attr}[{i}] is {decl!r}, not a declaration; use Reduction(...) in "

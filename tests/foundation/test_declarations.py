@@ -164,3 +164,20 @@ def test_bound_evaluating_to_nan_is_an_error_not_a_fail():
     assert check.error is not None and "NaN" in check.error and "below_nothing" in check.error
     r = run_product(NanBound, paths=1000)
     assert r.outcomes[0].verdict == "error" and "evaluates to NaN" in r.outcomes[0].message
+
+
+def test_a_relation_of_ones_own_not_derived_from_relation_is_still_accepted():
+    class Parity:  # anything with checks(product, model), as before validation existed
+        def checks(self, product, model):
+            return Identity("own", lambda p: [(1.0, p), (-1.0, p)]).checks(product, model)
+
+    class Own(_Call):
+        relations = (Parity(),)
+
+    assert [c.case for c in checks_for(Own)] == ["own"]
+
+
+def test_something_else_in_relations_is_refused():
+    with pytest.raises(DeclarationError, match=r"Odd.relations\[0\] is 3, not a declaration"):
+        class Odd(_Call):
+            relations = (3,)
