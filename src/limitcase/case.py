@@ -25,7 +25,7 @@ from .models.base import Model, Simulated
 from .moments import MomentAccumulator, Moments, moment_summary
 from .product import Product
 from .sampling import MethodSpec, Sampler, make_sampler, parse_method, resolve_method
-from .settings import DEFAULT_REGRESSION_PATHS
+from .settings import DEFAULT_REGRESSION_PATHS, ENGINE_METHOD
 from .streams import (
     BLOCK,
     ROLE_CONTROL_PILOT,
@@ -90,7 +90,7 @@ class Case:
         seed: None | int | np.random.SeedSequence = None,
         key: int = 0,
         rules: Sequence[PathRule] = (),
-        method: str | MethodSpec = "plain",
+        method: str | MethodSpec = ENGINE_METHOD,
         controls: Sequence[tuple[Product, float]] | None = None,
         sampler: Any = None,
         regression_paths: int = DEFAULT_REGRESSION_PATHS,

@@ -60,7 +60,7 @@ from .legs import grid_of
 from .models.base import Model
 from .product import Product
 from .sampling import MethodSpec
-from .settings import DEFAULT_BATCH, DEFAULT_PATHS, DEFAULT_REGRESSION_PATHS
+from .settings import DEFAULT_BATCH, DEFAULT_PATHS, DEFAULT_REGRESSION_PATHS, ENGINE_METHOD
 from .streams import BLOCK, block_generator, case_key, coerce_seed
 
 __all__ = [
@@ -100,7 +100,7 @@ def evaluate(
     regression_paths: int = DEFAULT_REGRESSION_PATHS,
     sampler: Any = None,
     on_batch: Callable[[int], None] | None = None,
-    method: str | MethodSpec = "plain",
+    method: str | MethodSpec = ENGINE_METHOD,
     controls: Sequence[tuple[Product, float]] | None = None,
 ) -> Joint:
     """Price several products on common paths; return their joint statistics.
@@ -131,7 +131,7 @@ def evaluate(
     on_batch
         Called with the number of paths done after every batch (progress).
     method
-        One of :data:`limitcase.sampling.METHODS`: ``"plain"`` (default), ``"antithetic"``,
+        One of :data:`limitcase.sampling.METHODS`: ``"plain"`` (default, ``settings.ENGINE_METHOD``), ``"antithetic"``,
         ``"sobol"``, ``"control"`` and their combinations, or ``"auto"``.
     controls
         With a ``control`` method: ``((product, exact_price), ...)`` to use instead of the

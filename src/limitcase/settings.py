@@ -25,6 +25,7 @@ __all__ = [
     "DEFAULT_SEED",
     "DEFAULT_ALPHA",
     "DEFAULT_METHOD",
+    "ENGINE_METHOD",
     "DEFAULT_MAX_PATHS",
     "DEFAULT_REGRESSION_PATHS",
     "DEFAULT_BATCH",
@@ -65,6 +66,13 @@ DEFAULT_ALPHA = 0.01
 DEFAULT_METHOD = "auto"
 """Sampling method (``--method``): control variates with Sobol points where they apply and
 antithetic pairs otherwise (see :mod:`limitcase.sampling`)."""
+
+ENGINE_METHOD = "plain"
+"""Sampling method of the engine's own entry points (:func:`limitcase.engine.evaluate`,
+:func:`limitcase.engine.price`, :class:`limitcase.case.Case`) when none is given: plain
+pseudo-random paths, the building block the audits and sweeps ask for by name. Runs of
+checks (the library's ``run_checks``, the command line, the plugin, ``limitcase.testing``)
+use :data:`DEFAULT_METHOD`."""
 
 DEFAULT_MAX_PATHS = 4_000_000
 """Path budget of each check under ``--precision`` (``--max-paths``)."""
