@@ -8,7 +8,9 @@ P(L <= S(t_i) <= U), each a difference of two cash digitals (Reiner and Rubinste
 from the terms (maturity and number of fixings), not read from ``dates()``.
 
 Checks. Limits: the corridor [0, inf] accrues on every fixing (the bond paying C); an empty
-corridor (L = U) accrues on none; one fixing with no upper level is the cash digital call.
+corridor (L = U) accrues on none; a price sitting exactly on L = U (spot 1, zero vol,
+dividend = rate) accrues on every fixing, since the corridor includes its ends; one fixing with no
+upper level is the cash digital call.
 The closed form at the defaults and on a corridor with no lower level. Relations, path by
 path: the accruals on [L, U] and [U, inf] add up to the accrual on [L, inf]; the accrual
 grows with U; it never exceeds the bond paying C.
@@ -59,6 +61,14 @@ class RangeAccrual(Product):
             {"lower": 110.0, "upper": 110.0},
             becomes=lambda p: _bond(p, 0.0),
             note="L = U = 110: no fixing lands exactly on the level, nothing accrues",
+        ),
+        Reduction(
+            "fixings_on_the_levels",
+            {"lower": 1.0, "upper": 1.0},
+            model_changes={"spot": 1.0, "vol": 0.0, "dividend": 0.05},
+            becomes=_bond,
+            note="spot 1, zero vol and dividend = rate (0.05): S = exp(0) = 1 exactly on every date, on "
+            "both levels; the corridor [L, U] includes its ends, so every fixing accrues: C at T",
         ),
         Reduction(
             "one_fixing_digital",

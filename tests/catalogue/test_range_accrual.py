@@ -56,7 +56,16 @@ class SumNotFraction(RangeAccrual):
         return self.cash * inside.sum(axis=1)
 
 
+class OpenCorridor(RangeAccrual):
+    """Compares strictly, L < S < U: a fixing exactly on a level does not accrue."""
+
+    def payoff(self, obs):
+        inside = (obs.s > self.lower) & (obs.s < self.upper)
+        return self.cash * inside.mean(axis=1)
+
+
 BROKEN = [
+    (OpenCorridor, "fixings_on_the_levels"),
     (CountsTodayInTheDenominator, "corridor_whole_line"),
     (OrInsteadOfAnd, "empty_corridor"),
     (OrInsteadOfAnd, "one_fixing_digital"),
