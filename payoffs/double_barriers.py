@@ -159,6 +159,17 @@ _CLOSED_FORMS = (
         note="one monitoring date (and today): a European payoff, the vanilla inside the corridor at T",
     ),
 )
+def _on_upper(value):
+    return Reduction(
+        "on_the_upper_barrier",
+        {"lower": 0.5, "upper": 1.0, "strike": 1.0, "rebate": REBATE},
+        model_changes={"spot": 1.0, "vol": 0.0, "dividend": 0.05},
+        becomes=value,
+        note="spot 1, zero vol and dividend = rate (0.05): S = exp(0) = 1 exactly on every date, on U = 1, "
+        "which touches it (S >= U): knocked today",
+    )
+
+
 _IN_PLUS_OUT = Identity(
     "in_plus_out_is_vanilla",
     lambda p: [(1.0, p.replace(rebate=0.0)), (1.0, _sibling(p, rebate=0.0)), (-1.0, _vanilla(p))],
@@ -203,6 +214,7 @@ class _KnockOut(_DoubleBarrier):
             becomes=lambda p: ZeroCouponBond(cash=REBATE, maturity=p.maturity),
             note="L at the spot is touched today: knocked out at once, the rebate at T",
         ),
+        _on_upper(lambda p: ZeroCouponBond(cash=REBATE, maturity=p.maturity)),
     ) + _CLOSED_FORMS
     relations = (
         _NO_LOWER,
@@ -230,6 +242,7 @@ class _KnockIn(_DoubleBarrier):
             becomes=_vanilla,
             note="L at the spot is touched today: knocked in at once, the vanilla",
         ),
+        _on_upper(_vanilla),
     ) + _CLOSED_FORMS
     relations = (
         _NO_LOWER,
@@ -413,6 +426,10 @@ _CONTINUOUS_CLOSED_FORMS = (
     own_closed_form("closed_form_rebate", {"rebate": REBATE}, note="the same with a rebate of 3 at T"),
     own_closed_form("closed_form_one_step", {"steps": 1},
                     note="one simulation interval [0, T]: the bridge alone decides, the price is unchanged"),
+    own_closed_form("closed_form_narrow_one_step", {"steps": 1, "lower": 90.0, "upper": 110.0, "maturity": 1.0},
+                    model_changes={"vol": 0.3},
+                    note="one interval of a year across a corridor of +-10%: the bridge's images beyond the "
+                    "first (n != 0) carry much of the survival probability"),
     own_closed_form("closed_form_haug_cell", {}, model_changes={"vol": 0.25, "rate": 0.1, "dividend": 0.0},
                     note="the setting of Haug's double-barrier table: S=K=100, L=80, U=120, T=0.25, "
                     "sigma=0.25, r=b=0.1"),

@@ -99,7 +99,14 @@ def vanilla_unfloored(self, obs):
     return _settle(self, _alive(self, obs), (s - self.strike) if self.call else (self.strike - s))
 
 
+def upper_inclusive(self, obs):
+    """Treats S = U as inside the corridor (S <= U instead of S < U)."""
+    s = _path(obs)
+    return _settle(self, np.all((s > self.lower) & (s <= self.upper), axis=1), _vanilla(self, obs.s[:, -1]))
+
+
 BUGS_OUT = {
+    "on_the_upper_barrier": upper_inclusive,
     "corridor_out_of_reach": rebate_always,
     "no_lower_barrier": ignores_upper,
     "no_upper_barrier": ignores_lower,
