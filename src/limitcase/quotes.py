@@ -87,6 +87,9 @@ __all__ = [
     "read_market_file",
     "resolve_market",
     "load_quotes",
+    "check_quote_file",
+    "MAX_QUOTE_FILE_BYTES",
+    "MAX_QUOTES",
     "arbitrage_warnings",
     "describe",
 ]
@@ -99,6 +102,13 @@ DAYS_PER_YEAR = 365.0
 MAX_EXPIRY = 100.0
 MAX_IV = 5.0
 _MAX_SHOWN = 25
+MAX_QUOTE_FILE_BYTES = 4 << 20
+"""Largest quote file read: 4 MiB, some 80,000 quotes of 50 bytes. Checked from the file's
+size before anything is read, so a wrong file is refused at once with an estimate."""
+MAX_QUOTES = 20_000
+"""Most quotes in one file. A Heston fit prices every quote a few thousand times and the
+repricing simulates every expiry; a listed-options surface has a few hundred quotes."""
+_SAMPLE_BYTES = 1 << 16
 _ISO = re.compile(r"^\d{4}-\d{2}-\d{2}$")
 
 
@@ -428,6 +438,37 @@ def _fmt_num(x: float) -> str:
     return f"{x:g}"
 
 
+def check_quote_file(path: str | Path) -> int:
+    """Size the work before reading: the quote file must exist, be a file and hold at most
+    :data:`MAX_QUOTE_FILE_BYTES`; returns its size in bytes.
+
+    Raises
+    ------
+    InputError
+        Missing file, a folder, or a file over the limit (the message gives its size, the
+        number of quotes estimated from the length of its first lines, and the limit).
+    """
+    name = str(path)
+    p = Path(path)
+    if not p.exists():
+        raise InputError(f"quote file {name!r} does not exist; check the path")
+    if p.is_dir():
+        raise InputError(f"quote file {name!r} is a folder; give a CSV file")
+    size = p.stat().st_size
+    if size > MAX_QUOTE_FILE_BYTES:
+        with open(p, "rb") as fh:
+            sample = fh.read(_SAMPLE_BYTES)
+        lines = sample.count(b"\n")
+        per_line = len(sample) / lines if lines else float(len(sample))
+        estimate = int(size / max(per_line, 1.0))
+        raise InputError(
+            f"quote file {name!r} is {size / 1e6:,.1f} MB, about {estimate:,} lines of quotes (from its first "
+            f"{len(sample):,} bytes); the limit is {MAX_QUOTE_FILE_BYTES / 2**20:g} MiB and {MAX_QUOTES:,} quotes "
+            f"(limitcase.quotes.MAX_QUOTE_FILE_BYTES): is it the right file? Keep the quotes to calibrate to"
+        )
+    return size
+
+
 def load_quotes(path: str | Path, market: Market) -> QuoteSet:
     """Read and validate a quote file (format in the module docstring).
 
@@ -447,11 +488,13 @@ def load_quotes(path: str | Path, market: Market) -> QuoteSet:
     Raises
     ------
     InputError
-        The file is missing, empty or has any bad header or cell; the message lists every
-        problem with its line, column and value.
+        The file is missing, over :data:`MAX_QUOTE_FILE_BYTES` or :data:`MAX_QUOTES`, empty
+        or has any bad header or cell; the message lists every problem with its line,
+        column and value.
     """
     name = str(path)
     p = Path(path)
+    check_quote_file(p)
     try:
         text = p.read_text(encoding="utf-8-sig")
     except FileNotFoundError as exc:
@@ -495,6 +538,9 @@ def load_quotes(path: str | Path, market: Market) -> QuoteSet:
     problems.raise_if_any()
     if len(rows) == 1:
         raise InputError(f"{name} has a header (line {header_line}) but no quotes; add one line per quote")
+    if len(rows) - 1 > MAX_QUOTES:
+        raise InputError(f"{name} has {len(rows) - 1:,} quotes; the limit is {MAX_QUOTES:,} "
+                         f"(limitcase.quotes.MAX_QUOTES): keep the quotes to calibrate to")
 
     quoted = "price" if "price" in seen else "iv"
     parsed: list[dict[str, Any]] = []

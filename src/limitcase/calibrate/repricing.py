@@ -117,6 +117,42 @@ class Repricing:
     steps_per_year: int
     tolerance_vol: float
 
+    def smiles(self, z: float = 2.0, points: int = 80) -> list[dict[str, Any]]:
+        """Plain records of one smile plot per expiry (for :func:`limitcase.report.reprice.plot_smiles`):
+        the model's implied vols by formula on ``points`` strikes spanning the quotes (puts
+        below the forward, calls above; a formula price with no implied vol leaves a gap),
+        the market's implied vols with bid and ask, and the Monte Carlo prices' implied vols
+        with bars of ``z`` standard errors (shifted a little to the right of the market point)."""
+        cal = self.calibration
+        m = cal.quotes.market
+        by_t: dict[float, list[RepriceRow]] = {}
+        for r in self.rows:
+            by_t.setdefault(r.quote.expiry, []).append(r)
+        out = []
+        for t, rows in sorted(by_t.items()):
+            ks = np.array([r.quote.strike for r in rows])
+            f = m.forward(t)
+            grid = np.linspace(ks.min() * 0.97, ks.max() * 1.03, points)
+            curve = []
+            for kind, mask in (("put", grid < f), ("call", grid >= f)):
+                if mask.any():
+                    for k, p in zip(grid[mask], cal.formula(t, grid[mask], kind)):
+                        try:
+                            iv = implied_vol(float(p), m.spot, k, t, m.rate(t), m.dividend(t), kind)
+                        except ParamError:
+                            continue
+                        curve.append((float(k), 100 * float(iv)))
+            market = [{"strike": r.quote.strike, "iv": 100 * r.quote.iv,
+                       "below": 100 * (r.quote.iv - r.quote.bid_iv) if r.quote.bid_iv is not None else 0.0,
+                       "above": 100 * (r.quote.ask_iv - r.quote.iv) if r.quote.ask_iv is not None else 0.0}
+                      for r in rows if r.quote.iv is not None]
+            shift = 0.004 * float(ks.max() - ks.min())
+            mc = [{"strike": r.quote.strike + shift, "iv": 100 * r.mc_iv, "bar": 100 * z * (r.mc_iv_se or 0.0),
+                   "verdict": r.verdict} for r in rows if r.mc_iv is not None]
+            out.append({"expiry": float(t), "expiry_text": rows[0].quote.expiry_text, "forward": float(f),
+                        "curve": sorted(curve), "market": market, "mc": mc})
+        return out
+
 
 def _finite(d: Any) -> Any:
     """JSON-safe: NaN -> None, numpy scalars -> Python numbers, recursively."""
