@@ -321,7 +321,7 @@ def test_oversized_quote_file_is_refused_at_once_with_an_estimate(tmp_path):
 
 
 def test_too_many_quotes_are_refused(tmp_path, monkeypatch):
-    from limitcase import quotes as quotes_module
+    from limitcase.quotes import reading as quotes_module
 
     monkeypatch.setattr(quotes_module, "MAX_QUOTES", 1)
     r = run(tmp_path, GOOD, *MARKET)
