@@ -375,7 +375,7 @@ from hypothesis import HealthCheck, given, settings  # noqa: E402
 from hypothesis import strategies as st  # noqa: E402
 
 
-@settings(max_examples=25, deadline=None, derandomize=True, suppress_health_check=[HealthCheck.too_slow])
+@settings(max_examples=40, deadline=None, derandomize=True, suppress_health_check=[HealthCheck.too_slow])
 @given(
     v0=st.floats(1e-4, 1.0), kappa=st.floats(1e-2, 20.0), theta=st.floats(1e-4, 1.0),
     sig=st.floats(1e-2, 4.0), rho=st.floats(-0.99, 0.99), t=st.floats(0.01, 5.0),
@@ -387,7 +387,8 @@ def test_property_bounds_hold_or_it_raises_and_agrees_with_p1_p2(v0, kappa, thet
     standard deviations (at 20% vol) of the forward: a price is inside the no-arbitrage
     bounds (Merton 1973) or the reference raises ParamError; where it returns, it agrees
     with Heston's P1/P2 by scipy quad within ACCURACY * sqrt(S K) plus quad's own error
-    estimate (skipped, via assume, where quad itself reports a failure)."""
+    estimate (skipped, via assume, where quad itself reports a failure or where vol of vol
+    < 0.1 makes the double-precision P1/P2 lose more digits than that)."""
     from hypothesis import assume
 
     from limitcase.references.heston import ACCURACY
@@ -401,6 +402,11 @@ def test_property_bounds_hold_or_it_raises_and_agrees_with_p1_p2(v0, kappa, thet
         return
     lo, hi = _bounds(s, k, t, r, q, call)
     assert lo <= got <= hi
+    # The P1/P2 exponent divides differences of O(sigma^2) by sigma^2: in double precision
+    # it loses about eps (kappa theta T + v0) / sigma^2 (measured: 1.5e-8 on a price of 38 at
+    # sigma = 0.01, where a 30-digit mpmath evaluation agrees with the library to 1e-13),
+    # more than the stated accuracy; so it is the independent value only for sigma >= 0.1.
+    assume(sig >= 0.1)
     indep = _pj_call_with_error(s, k, t, r, q, v0, kappa, theta, sig, rho)
     assume(indep is not None and indep[1] < 1e-6)
     want = indep[0] if call else indep[0] - s * math.exp(-q * t) + k * math.exp(-r * t)

@@ -527,14 +527,16 @@ def heston_price(
         scale = np.sqrt(ss * kk) * math.exp(-0.5 * (ri + qi) * ti) / math.pi
         allowed = ACCURACY * np.sqrt(ss * kk)
         val, err = integral(logm, ti, model, 0.01 * float(np.min(allowed / scale)))
-        where = (f"{func}: Heston v0={v0i!r}, kappa={ki!r}, theta={thi!r}, vol_of_vol={si!r}, rho={rhi!r}, "
-                 f"T={ti!r}, r={ri!r}, q={qi!r}")
+        where = (f"{func}: Heston v0={float(v0i)!r}, kappa={float(ki)!r}, theta={float(thi)!r}, "
+                 f"vol_of_vol={float(si)!r}, rho={float(rhi)!r}, T={float(ti)!r}, r={float(ri)!r}, q={float(qi)!r}")
         if not np.all(scale * err <= allowed):
             bad = int(np.argmax(scale * err - allowed))
             raise ParamError(
                 f"{where}: the quadrature of Lewis' integral cannot meet the stated accuracy "
-                f"{ACCURACY:g} * sqrt(S K) = {allowed[bad]:.3g} at strike {kk[bad]!r} (error estimate "
-                f"{scale[bad] * err:.3g}, method {method!r}); the characteristic function decays too slowly "
+                f"{ACCURACY:g} * sqrt(S K) = {allowed[bad]:.3g} at strike {float(kk[bad])!r} ("
+                + (f"error estimate {scale[bad] * err:.3g}" if math.isfinite(err)
+                   else f"no two grids within the budget of {_MAX_NODES:,} nodes to compare")
+                + f", method {method!r}); the characteristic function decays too slowly "
                 f"(small variance with a large vol of vol): no price is returned"
             )
         fwd_s, fwd_k = ss * math.exp(-qi * ti), kk * math.exp(-ri * ti)
@@ -547,8 +549,8 @@ def heston_price(
         if np.any(outside):
             bad = int(np.nonzero(outside)[0][0])
             raise ParamError(
-                f"{where}: the {'call' if call else 'put'} at strike {kk[bad]!r} came out {p[bad]!r}, outside "
-                f"the no-arbitrage bounds [{lo[bad]!r}, {hi[bad]!r}] by more than the stated accuracy "
+                f"{where}: the {'call' if call else 'put'} at strike {float(kk[bad])!r} came out {float(p[bad])!r}, "
+                f"outside the no-arbitrage bounds [{float(lo[bad])!r}, {float(hi[bad])!r}] by more than the stated accuracy "
                 f"{allowed[bad]:.3g}: no price is returned"
             )
         price[idx] = np.clip(p, lo, hi)
