@@ -15,6 +15,16 @@ from ..models.base import Model
 from ..product import Product
 from ..verdict import Outcome
 
+__all__ = [
+    "_name",
+    "_outcome",
+    "_error",
+    "_z",
+    "_seed_int",
+    "_check_paths",
+    "_evaluate",
+]
+
 
 # ----------------------------------------------------------------------------------------
 # helpers

@@ -7,6 +7,16 @@ from ..models.gbm import BlackScholes, MultiBlackScholes
 from ..models.heston import Heston
 from ..models.merton import Merton
 
+__all__ = [
+    "AUDITS",
+    "MARTINGALE_DATES",
+    "PATHS_GROUP_MIN",
+    "SEED_PATHS_MIN",
+    "OPTION_MATURITY",
+    "OPTION_DATES",
+    "default_models",
+]
+
 
 AUDITS = ("martingale", "paths", "seeds", "steps", "degenerations")
 """The audits, in the order :func:`run_audits` runs them."""

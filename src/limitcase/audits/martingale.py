@@ -19,6 +19,12 @@ from .probes import AuditOption, _Delivery, _Probe, reference_option
 from .wrappers import DriftCorrected
 from .common import _check_paths, _evaluate, _name, _outcome, _seed_int, _z
 
+__all__ = [
+    "audit_martingale",
+    "audit_paths",
+    "audit_seeds",
+]
+
 
 # ----------------------------------------------------------------------------------------
 # martingale

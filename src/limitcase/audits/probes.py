@@ -14,6 +14,13 @@ from ..product import Observed, Product
 from .constants import OPTION_DATES, OPTION_MATURITY
 from .common import _name
 
+__all__ = [
+    "_Probe",
+    "_Delivery",
+    "AuditOption",
+    "reference_option",
+]
+
 
 # ----------------------------------------------------------------------------------------
 # the audits' own small products

@@ -13,6 +13,12 @@ from ..models.heston import Heston
 from ..models.merton import Merton
 from .probes import AuditOption
 
+__all__ = [
+    "register_reference",
+    "reference_price",
+    "_marginal",
+]
+
 
 # ----------------------------------------------------------------------------------------
 # reference prices: a registry from model class to a trusted pricer

@@ -15,6 +15,11 @@ from .common import _error, _name, _seed_int
 from .martingale import audit_martingale, audit_paths, audit_seeds
 from .steps import audit_degenerations, audit_steps
 
+__all__ = [
+    "audit_model",
+    "run_audits",
+]
+
 
 # ----------------------------------------------------------------------------------------
 # runner

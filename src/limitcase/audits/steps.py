@@ -18,6 +18,11 @@ from .registry import _marginal, reference_price
 from .wrappers import _Level, _Levels
 from .common import _check_paths, _error, _evaluate, _name, _outcome, _seed_int, _z
 
+__all__ = [
+    "audit_steps",
+    "audit_degenerations",
+]
+
 
 # ----------------------------------------------------------------------------------------
 # steps

@@ -12,6 +12,12 @@ import numpy as np
 from ..errors import ModelError
 from ..models.base import Model, Simulated
 
+__all__ = [
+    "DriftCorrected",
+    "_Level",
+    "_Levels",
+]
+
 
 # ----------------------------------------------------------------------------------------
 # model wrappers used by the audits

@@ -17,6 +17,9 @@ from ..models import BlackScholes, Heston, Model
 from ..quotes import Market, QuoteSet
 from ..references import black_scholes, heston_price, implied_vol
 from ..references.heston import HestonGrid
+from ..settings import REPRICE_STARTS as DEFAULT_STARTS
+from ..settings import REPRICE_STEPS_PER_YEAR as DEFAULT_STEPS_PER_YEAR
+from ..settings import REPRICE_TOLERANCE_VOL as DEFAULT_TOLERANCE_VOL
 from .pricing import HestonSurface, bs_vega, heston_lewis_prices
 
 __all__ = [
@@ -52,15 +55,6 @@ correlated model is degenerate). Wide enough for equity-index surfaces (common p
 HESTON_PARAMS = tuple(HESTON_BOUNDS)
 BS_VOL_BOUNDS = (1e-3, 5.0)
 
-DEFAULT_STEPS_PER_YEAR = 32
-"""Heston scheme steps per year in the reprice. The QE scheme's bias at 16 steps a year was
-below 0.7 standard errors of 200,000 paths on every strike of the demo surface (T = 0.3
-and 2); 32 halves the step again."""
-
-DEFAULT_TOLERANCE_VOL = 0.5
-"""Declared tolerance (implied-volatility points) of a quote without bid-ask."""
-
-DEFAULT_STARTS = 6
 VEGA_FLOOR = 1e-3
 """Vega weights are floored at ``VEGA_FLOOR * S e^{-qT} sqrt(T)`` (about 1/400 of the
 at-the-money vega): a far-wing quote with almost no vega would otherwise dominate the fit."""

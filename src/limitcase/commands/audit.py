@@ -38,8 +38,8 @@ def command(model_names: tuple[str, ...], paths: int, seed: int, alpha: float, j
     parameters): martingale, standard error against paths, seed-to-seed spread, time-step
     convergence and the model's degenerate cases."""
     from ..audits import AUDITS, default_models, run_audits
-    from ..report import render_summary
-    from ..report.audit import render_audit_table
+    from ..report import render_summary, render_table
+    from ..report.audit import render_audit_legend
 
     known = default_models()
     by_lower = {k.lower(): k for k in known}
@@ -59,7 +59,10 @@ def command(model_names: tuple[str, ...], paths: int, seed: int, alpha: float, j
         progress.close()
     if not result.outcomes:
         raise InputFailure("no audit outcomes" + (" match --select" if selects else ""))
-    click.echo(render_audit_table(result.outcomes))
+    click.echo(render_table(result.outcomes))
+    legend = render_audit_legend(result.outcomes)
+    if legend:
+        click.echo(legend)
     click.echo("")
     reproduce = f"limitcase audit {' '.join(model_names)}".rstrip()
     click.echo(render_summary(result, reproduce=reproduce))

@@ -10,6 +10,11 @@ import numpy as np
 
 from .records import ArbitrageWarning, Quote, QuoteSet
 
+__all__ = [
+    "arbitrage_warnings",
+    "describe",
+]
+
 
 # ----------------------------------------------------------------------------------------
 # no-arbitrage warnings

@@ -15,6 +15,25 @@ import numpy as np
 
 from ..errors import InputError
 
+__all__ = [
+    "QUOTE_COLUMNS",
+    "MARKET_KEYS",
+    "DAYS_PER_YEAR",
+    "MAX_EXPIRY",
+    "MAX_IV",
+    "_MAX_SHOWN",
+    "MAX_QUOTE_FILE_BYTES",
+    "MAX_QUOTES",
+    "_SAMPLE_BYTES",
+    "_ISO",
+    "Curve",
+    "Market",
+    "_number",
+    "parse_curve",
+    "read_market_file",
+    "resolve_market",
+]
+
 
 QUOTE_COLUMNS = ("expiry", "strike", "type", "price", "iv", "bid", "ask", "weight")
 MARKET_KEYS = ("spot", "rate", "dividend", "valuation_date")

@@ -27,6 +27,11 @@ from .market import (
 )
 from .records import Quote, QuoteSet
 
+__all__ = [
+    "check_quote_file",
+    "load_quotes",
+]
+
 
 class _Problems:
     """Every problem found in a file, listed together in one InputError."""

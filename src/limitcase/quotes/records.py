@@ -7,6 +7,12 @@ from typing import Any, Iterable
 
 from .market import Market
 
+__all__ = [
+    "Quote",
+    "ArbitrageWarning",
+    "QuoteSet",
+]
+
 
 # ----------------------------------------------------------------------------------------
 # quotes

@@ -4,17 +4,15 @@ is not a price.
 Most audit rows compare a Monte Carlo price with a reference price, as a check's row does;
 a few compare a statistic with its target (a slope, a chi-square statistic, a price
 difference). The table keeps one layout and the legend says, for each such row present,
-what its value, its "+/- SE" and its reference are. Formats plain outcome records; imports
-nothing that prices.
+what its value, its "+/- SE" and its reference are (the table itself is
+:func:`limitcase.report.render_table`'s). Formats plain outcome records; imports nothing.
 """
 
 from __future__ import annotations
 
 from typing import Any, Sequence
 
-from .terminal import render_table
-
-__all__ = ["AUDIT_ROW_MEANINGS", "render_audit_table", "render_audit_legend"]
+__all__ = ["AUDIT_ROW_MEANINGS", "render_audit_legend"]
 
 AUDIT_ROW_MEANINGS: dict[str, str] = {
     "paths": "value = slope of log(standard error) against log(paths) over disjoint groups, +/- its standard "
@@ -41,10 +39,3 @@ def render_audit_legend(outcomes: Sequence[Any]) -> str:
     lines = ["rows that are not prices:"]
     lines += [f"  {c.ljust(width)}  {AUDIT_ROW_MEANINGS[c]}" for c in present]
     return "\n".join(lines)
-
-
-def render_audit_table(outcomes: Sequence[Any]) -> str:
-    """The outcome table (as for checks), then the legend of its non-price rows."""
-    legend = render_audit_legend(outcomes)
-    table = render_table(outcomes)
-    return f"{table}\n{legend}" if legend else table
