@@ -5,6 +5,7 @@ from __future__ import annotations
 from ..models.base import Model
 from ..models.gbm import BlackScholes, MultiBlackScholes
 from ..models.heston import Heston
+from ..models.localvol import LocalVol, example_surface
 from ..models.merton import Merton
 
 __all__ = [
@@ -45,4 +46,5 @@ def default_models() -> dict[str, Model]:
         "MultiBlackScholes": MultiBlackScholes(),
         "Heston": Heston(),
         "Merton": Merton(),
+        "LocalVol": LocalVol(surface=example_surface()),
     }

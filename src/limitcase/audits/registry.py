@@ -7,9 +7,11 @@ from typing import Any, Callable
 
 from ..errors import NoReference
 from ..references import black_scholes, heston_price, margrabe_exchange, merton_jump_price
+from ..references.fourier import FOURIER_METHOD, fourier_price
 from ..models.base import Model
 from ..models.gbm import BlackScholes, MultiBlackScholes
 from ..models.heston import Heston
+from ..models.localvol import LocalVol
 from ..models.merton import Merton
 from .probes import AuditOption
 
@@ -38,14 +40,27 @@ def reference_price(model: Model, option: AuditOption) -> tuple[float, str]:
     """The trusted price of ``option`` under ``model`` and where it comes from.
 
     The pricer is found along the model's class hierarchy (a subclass of
-    :class:`~limitcase.models.Heston` is priced as Heston: it claims to be one).
+    :class:`~limitcase.models.Heston` is priced as Heston: it claims to be one). A model
+    with no registered pricer is priced from what it states about itself: its
+    ``european_price`` (a local-volatility model reads its surface), else its
+    ``characteristic_function`` by the Fourier method (Lewis 2001); one-asset calls only.
     """
     for klass in type(model).__mro__:
         if klass in _REFERENCES:
             return _REFERENCES[klass](model, option)
+    if option.kind == "call" and model.n_assets == 1:
+        if callable(getattr(model, "european_price", None)):
+            return float(model.european_price("call", option.strike, option.maturity)), \
+                "call from the model's own european_price"  # type: ignore[attr-defined]
+        if type(model).characteristic_function is not Model.characteristic_function:
+            fwd = float(model.forward([option.maturity])[0, 0])
+            value = fourier_price(model.characteristic_function, option.strike, option.maturity,
+                                  model.short_rate, "call", forward=fwd)
+            return float(value), f"call by {FOURIER_METHOD} on the model's characteristic function"
     raise NoReference(
-        f"no reference price registered for {type(model).__name__}; "
-        "register one with limitcase.audits.register_reference"
+        f"no reference price registered for {type(model).__name__}; register one with "
+        "limitcase.audits.register_reference, or state characteristic_function(u, t) or "
+        "european_price(kind, strike, maturity) on the model"
     )
 
 
@@ -92,6 +107,16 @@ register_reference(BlackScholes, _bs_reference)
 register_reference(MultiBlackScholes, _multi_reference)
 register_reference(Heston, _heston_reference)
 register_reference(Merton, _merton_reference)
+
+
+def _localvol_reference(model: Model, option: AuditOption) -> tuple[float, str]:
+    _call_only(model, option)
+    m: Any = model
+    return float(m.european_price("call", option.strike, option.maturity)), \
+        "call at the implied surface's volatility (Dupire: local volatility reprices its surface)"
+
+
+register_reference(LocalVol, _localvol_reference)
 
 
 def _marginal(model: Model, i: int) -> Model | None:
