@@ -241,9 +241,13 @@ def reference_price(model: Model, option: AuditOption) -> tuple[float, str]:
     for klass in type(model).__mro__:
         if klass in _REFERENCES:
             return _REFERENCES[klass](model, option)
+    if option.kind == "call" and option.columns == (0,) and type(model).call_price is not Model.call_price:
+        # a user's model that states its own closed form (Model.call_price)
+        return float(model.call_price(option.strike, option.maturity)), f"{type(model).__name__}.call_price"
     raise NoReference(
         f"no reference price registered for {type(model).__name__}; "
-        "register one with limitcase.audits.register_reference"
+        "register one with limitcase.audits.register_reference or give the model a "
+        "call_price(strike, maturity) method"
     )
 
 

@@ -1,7 +1,8 @@
 """``limitcase audit [MODEL]...``: the engine's own checks, model by model.
 
 Thin: parses, calls :func:`limitcase.audits.run_audits`, renders. Exit status as ``check``:
-0 when every audit passes, 1 when any fails or errors, 2 for bad input (an unknown model).
+0 when every audit passes, 1 when any fails or errors, 2 for bad input (an unknown model, a
+model file that does not import, a bad override).
 """
 
 from __future__ import annotations
@@ -19,6 +20,23 @@ def _audit_names() -> tuple[str, ...]:
     return AUDITS
 
 
+def _chosen_models(specs: tuple[str, ...]) -> dict:
+    """Models by name from the specs (shipped names with overrides, files, folders,
+    ``file.py:Class``; see :mod:`limitcase.models.spec`); a name taken twice gets its file."""
+    from ..loader import qualified_names
+    from ..models.spec import resolve_models
+
+    found = [m for s in specs for m in resolve_models(s)]
+    names = qualified_names([type(m) for m in found])
+    chosen: dict = {}
+    for m in found:
+        key = names[type(m)]
+        if key in chosen:
+            key = f"{key} {m.label()}"
+        chosen[key] = m
+    return chosen
+
+
 @click.command("audit")
 @click.argument("model_names", metavar="[MODEL]...", nargs=-1)
 @common_run_options
@@ -34,20 +52,13 @@ def command(model_names: tuple[str, ...], paths: int, seed: int, alpha: float, j
             junit_path: str | None, debug: bool, only: tuple[str, ...], selects: tuple[str, ...],
             drift_correction: bool) -> None:
     """Audit the simulation of each MODEL (default: every shipped model at its default
-    parameters): martingale, standard error against paths, seed-to-seed spread, time-step
+    parameters). MODEL is a shipped name with optional overrides (heston:kappa=2,theta=0.04),
+    a .py file or folder of Model classes, or file.py:Class[:name=value,...]: martingale, standard error against paths, seed-to-seed spread, time-step
     convergence and the model's degenerate cases."""
     from ..audits import AUDITS, default_models, run_audits
     from ..report import render_summary, render_table
 
-    known = default_models()
-    by_lower = {k.lower(): k for k in known}
-    chosen = {}
-    for name in model_names:
-        key = by_lower.get(name.lower())
-        if key is None:
-            raise InputFailure(f"unknown model {name!r}; the models are: {', '.join(known)}")
-        chosen[key] = known[key]
-    models = chosen or known
+    models = _chosen_models(model_names) or default_models()
     audits = tuple(a for a in AUDITS if a in only) if only else AUDITS
     progress = Progress("auditing", len(models))
     try:
