@@ -11,6 +11,9 @@ package name, so that they and an installed copy are one and the same.
 ``setup.py``, ``conftest.py``, test files (``test_*.py``, ``*_test.py``) and files whose
 name starts with ``_``.
 
+The folder of each file is put on ``sys.path`` (at its end) before the file is imported, as
+it is for a script, so a file may import a helper module kept beside it.
+
 A file that does not import (it raises, or even calls ``sys.exit`` at import) never ends
 the run: it becomes a :class:`LoadFailure` naming the file and line, and the other files
 are still loaded (when the caller passes ``failures=``; otherwise the first one is raised as
@@ -115,6 +118,9 @@ def _import_file(path: Path) -> ModuleType:
         raise InputError(f"{path}: cannot be imported as a Python module")
     module = importlib.util.module_from_spec(spec)
     sys.modules[name] = module
+    folder = str(path.parent)
+    if folder not in sys.path:  # as for a script: modules beside the file can be imported
+        sys.path.append(folder)
     try:
         spec.loader.exec_module(module)
     except KeyboardInterrupt:

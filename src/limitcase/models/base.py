@@ -176,15 +176,17 @@ def _check_declaration(cls: type) -> None:
     degs = vars(cls).get("degenerations", ())
     if not isinstance(degs, (tuple, list)):
         raise _declaration_error(cls, "degenerations is not a tuple", "write degenerations = (Degeneration(...), ...)")
+    accepted = set(specs)  # the Params, and the named arguments of an own constructor
     try:
-        accepted = set(specs) | {p for p in inspect.signature(cls.__init__).parameters if p != "self"}
+        accepted |= {p.name for p in inspect.signature(cls.__init__).parameters.values()
+                     if p.name != "self" and p.kind not in (p.VAR_KEYWORD, p.VAR_POSITIONAL)}
     except (TypeError, ValueError):
-        accepted = set(specs)
+        pass
     for d in degs:
         if not isinstance(d, Degeneration):
             raise _declaration_error(cls, f"degenerations holds {d!r}",
                                      "each entry must be Degeneration(name, changes, becomes, note)")
-        unknown = sorted(set(d.changes) - accepted) if "overrides" not in accepted else []
+        unknown = sorted(set(d.changes) - accepted)
         if unknown:
             raise _declaration_error(
                 cls, f"degeneration {d.name!r} changes {unknown[0]!r}, which is not a parameter",

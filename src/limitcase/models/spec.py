@@ -180,7 +180,8 @@ def resolve_models(text: str) -> list[Model]:
                 "(or give a .py file of Model classes, e.g. my_model.py or my_model.py:MyModel)")
         if s.class_name is not None:
             raise InputError(f"model spec {text!r}: a shipped model takes NAME=VALUE overrides after ':', "
-                             f"not a class name ({s.class_name!r})")
+                             f"not a class name; {s.class_name!r} has no value: write "
+                             f"{s.target}:{s.class_name}=VALUE")
         return [_instantiate(cls, s.overrides, s.text)]
     path = Path(s.target)
     selector = f"{path}:{s.class_name}" if s.class_name else str(path)

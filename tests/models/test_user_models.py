@@ -1,0 +1,144 @@
+"""Models written in a user's own file, audited through the command line at default
+settings: the correct ones pass, each broken twin is caught."""
+
+from __future__ import annotations
+
+import re
+from pathlib import Path
+
+import pytest
+from click.testing import CliRunner
+
+from limitcase.cli import main
+from limitcase.errors import InputError, ModelError, ParamError
+from limitcase.models import BlackScholes, Degeneration, Model, MultiBlackScholes
+from limitcase.models.spec import parse_model_spec, resolve_model
+from limitcase.params import Param
+
+HERE = Path(__file__).parent / "user_models"
+CORRECT = HERE / "correct_models.py"
+BROKEN = HERE / "broken_models.py"
+
+
+def _audit(*args):
+    return CliRunner().invoke(main, ["audit", *map(str, args)])
+
+
+def test_the_correct_user_models_pass_every_audit():
+    r = _audit(CORRECT)
+    assert r.exit_code == 0, r.output
+    for name in ("MyGBM", "MyJumps", "MyPair", "MyEulerHeston"):
+        assert re.search(rf"^{name}\s+martingale\s.*PASS$", r.output, re.M)
+    assert "0 fail, 0 error" in r.output
+
+
+@pytest.fixture(scope="module")
+def broken_run():
+    return _audit(BROKEN)
+
+
+@pytest.mark.parametrize("model, caught_by", [
+    ("DriftWithoutDividend", ["martingale", "steps_limit"]),
+    ("VarianceByStep", ["martingale", "steps_flat", "steps_limit"]),
+    ("NoCompensator", ["martingale", "steps_limit"]),
+    ("TransposedFactor", ["martingale", "steps_limit", "degenerations:asset1_alone"]),
+    ("FlooredOnce", ["martingale"]),
+])
+def test_each_broken_twin_is_caught_by_audit_at_default_settings(broken_run, model, caught_by):
+    assert broken_run.exit_code == 1, broken_run.output
+    for case in caught_by:
+        assert f"FAIL {model}/{case}:" in broken_run.output
+    assert "Traceback" not in broken_run.output
+
+
+# --- specs ---------------------------------------------------------------------------------
+
+
+def test_spec_syntax():
+    s = parse_model_spec("heston:kappa=2,theta=0.04,scheme=euler")
+    assert (s.target, s.class_name, s.overrides) == ("heston", None, {"kappa": 2, "theta": 0.04, "scheme": "euler"})
+    s = parse_model_spec("dir/m.py:Cls:spots=[100, 90],vol=inf")
+    assert (s.target, s.class_name) == ("dir/m.py", "Cls") and s.overrides == {"spots": [100, 90], "vol": float("inf")}
+    s = parse_model_spec("m.py:vol=0.3")
+    assert (s.target, s.class_name, s.overrides) == ("m.py", None, {"vol": 0.3})
+
+
+def test_shipped_names_take_overrides():
+    m = resolve_model("Heston:kappa=2,scheme=euler")
+    assert m.kappa == 2.0 and m.scheme == "euler"
+    m = resolve_model("multiblackscholes:spots=[100,90],correlation=0.3")
+    assert m.spots.tolist() == [100.0, 90.0]
+
+
+@pytest.mark.parametrize("spec, message", [
+    ("bates", r"unknown model 'bates'; the models are: BlackScholes, MultiBlackScholes, Heston, Merton"),
+    ("heston:kapa=2", r"Heston has no parameter 'kapa'; its parameters are: spot"),
+    ("heston:kappa", r"'kappa' has no value: write heston:kappa=VALUE"),
+    ("heston:kappa=2,3", r"'3' is not NAME=VALUE"),
+    ("heston:kappa=-1", r"heston.py:\d+: class Heston: kappa=-1 is outside \(0, 50\]"),
+    (f"{CORRECT}:Nope", r"correct_models.py: no Model class 'Nope' defined there; its Model classes: MyGBM, MyJumps"),
+    (f"{CORRECT}:vol=0.3", r"defines 4 models \(MyGBM, MyJumps, MyPair, MyEulerHeston\); pick one"),
+    (f"{CORRECT}:MyGBM:vol=9", r"correct_models.py:\d+: class MyGBM: vol=9 is outside \[0, 5\]"),
+])
+def test_bad_specs_name_file_class_parameter_and_fix(spec, message):
+    with pytest.raises(InputError, match=message):
+        resolve_model(spec)
+
+
+def test_bad_spec_on_the_command_line_is_bad_input():
+    r = _audit(f"{CORRECT}:MyGBM:vol=9")
+    assert r.exit_code == 2 and "vol=9 is outside [0, 5]" in r.output and "Traceback" not in r.output
+
+
+# --- replace keeps the user's class; declarations checked where they are written ----------
+
+
+def test_replace_and_degenerations_keep_the_users_class():
+    pair = resolve_model(f"{CORRECT}:MyPair")
+    moved = pair.replace(correlation=0.0)
+    assert type(moved) is type(pair) and moved.correlation[0, 1] == 0.0 and moved != pair
+    with pytest.raises(ParamError, match="MyPair has no parameter 'corr'"):
+        pair.replace(corr=0.1)
+    heston = resolve_model(f"{CORRECT}:MyEulerHeston")
+    assert type(heston.replace(vol_of_vol=0.0)) is type(heston)
+    assert type(MultiBlackScholes().replace(rate=0.01)) is MultiBlackScholes
+
+
+def _declare(**body):
+    return type("Mine", (Model,), {"__module__": __name__, **body})
+
+
+_OK = dict(rate=Param(0.05), initial=lambda self: None, dividend_yields=lambda self: None,
+           _simulate=lambda self, t, z, g: None)
+
+
+@pytest.mark.parametrize("change, message", [
+    ({"rate": None}, r"no 'rate' parameter; declare rate = Param\(0.05"),
+    ({"_simulate": None}, r"_simulate\(\) is not defined; define _simulate\(self, times, z, rng\)"),
+    ({"vol": Param(7.0, low=0.0, high=5.0)}, r"the default of parameter 'vol' is invalid .*; give vol = Param"),
+    ({"normals_per_step": 2}, r"normals_per_step = 2 is not a method; write def normals_per_step\(self\) -> int: return 2"),
+    ({"n_assets": 0}, r"n_assets = 0; n_assets must be a whole number >= 1"),
+    ({"degenerations": (Degeneration("x", {"vl": 0.0}, becomes=lambda m: m),)},
+     r"degeneration 'x' changes 'vl', which is not a parameter; use one of its parameters: rate"),
+])
+def test_declaration_errors_are_raised_at_class_definition(change, message):
+    body = {k: v for k, v in {**_OK, **change}.items() if v is not None}
+    with pytest.raises(ModelError, match=r"test_user_models.py.*model class Mine: " + message):
+        _declare(**body)
+
+
+def test_normals_per_step_must_return_a_count():
+    cls = _declare(**_OK, normals_per_step=lambda self: 0.5)
+    with pytest.raises(InputError, match=r"normals_per_step\(\) returned 0.5; return a whole number >= 1"):
+        _resolve_class(cls)
+
+
+def _resolve_class(cls):
+    from limitcase.models.spec import _instantiate
+
+    return _instantiate(cls, {}, "Mine")
+
+
+def test_a_subclass_of_a_shipped_model_needs_nothing_more():
+    cls = type("Quieter", (BlackScholes,), {"__module__": __name__, "vol": Param(0.1, low=0.0, high=5.0)})
+    assert cls().vol == 0.1
