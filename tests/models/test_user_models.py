@@ -142,3 +142,34 @@ def _resolve_class(cls):
 def test_a_subclass_of_a_shipped_model_needs_nothing_more():
     cls = type("Quieter", (BlackScholes,), {"__module__": __name__, "vol": Param(0.1, low=0.0, high=5.0)})
     assert cls().vol == 0.1
+
+
+# --- check --model ----------------------------------------------------------------------------
+
+
+def test_check_under_a_user_model_runs_what_fits_and_skips_the_rest(tmp_path):
+    out = tmp_path / "run.json"
+    r = CliRunner().invoke(main, ["check", "payoffs/vanilla.py", "payoffs/multi_asset.py", "--model",
+                                  f"{CORRECT}:MyPair", "--select", "ExchangeOption", "--paths", "8192",
+                                  "--workers", "1", "--json", str(out)])
+    assert r.exit_code == 0, r.output
+    assert "skipped EuropeanCall: reads 1 asset; the model MyPair simulates 2" in r.output
+    assert "skipped BasketCall: reads 3 assets; the model MyPair simulates 2" in r.output
+    assert "4 checks: 4 pass, 0 fail, 0 error" in r.output
+    import json
+
+    settings = json.loads(out.read_text())["settings"]
+    assert settings["model"].startswith("MyPair(") and {"product": "BasketPut", "reason":
+                                                         "reads 3 assets; the model MyPair simulates 2"} in settings["skipped"]
+
+
+def test_model_changes_of_a_reduction_keep_the_users_class():
+    from limitcase.plan import plan_checks
+    from limitcase_payoffs.multi_asset import ExchangeOption
+
+    pair = resolve_model(f"{CORRECT}:MyPair:correlation=0.2")
+    checks, skipped = plan_checks([ExchangeOption], pair)
+    riskless = next(c for c in checks if c.case == "second_asset_riskless")
+    assert not skipped and riskless.error is None
+    assert type(riskless.model) is type(pair) and riskless.model.vols[1] == 0.0
+    assert riskless.model.correlation[0, 1] == 0.2
