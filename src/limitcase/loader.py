@@ -138,6 +138,8 @@ def _import_message(path: Path, exc: BaseException) -> str:
     if line is None and isinstance(exc, SyntaxError) and exc.lineno:
         line = exc.lineno
     where = f"{path}:{line}" if line else str(path)
+    if str(exc).startswith(f"{path}:"):  # a declaration error that already names the file and line
+        return f"{exc} (so the file does not import)"
     if isinstance(exc, SystemExit):
         return (f"{where}: the file does not import: it calls sys.exit({exc.code!r}) at import; "
                 "put script code under if __name__ == \"__main__\":")

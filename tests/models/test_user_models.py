@@ -173,3 +173,16 @@ def test_model_changes_of_a_reduction_keep_the_users_class():
     assert not skipped and riskless.error is None
     assert type(riskless.model) is type(pair) and riskless.model.vols[1] == 0.0
     assert riskless.model.correlation[0, 1] == 0.2
+
+
+def test_a_declaration_error_in_a_model_file_is_bad_input_naming_file_line_class_and_fix(tmp_path):
+    f = tmp_path / "sloppy.py"
+    f.write_text("import numpy as np\nfrom limitcase.models import Model\nfrom limitcase.params import Param\n\n\n"
+                 "class Sloppy(Model):\n    spot = Param(100.0, low=0.0, low_open=True)\n"
+                 "    def initial(self):\n        return np.array([self.spot])\n"
+                 "    def dividend_yields(self):\n        return np.zeros(1)\n"
+                 "    def _simulate(self, times, z, rng):\n        raise NotImplementedError\n")
+    r = _audit(f)
+    assert r.exit_code == 2
+    assert f"{f}:6: model class Sloppy: no 'rate' parameter; declare rate = Param(0.05" in r.output
+    assert "Traceback" not in r.output
