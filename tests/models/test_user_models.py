@@ -71,7 +71,7 @@ def test_shipped_names_take_overrides():
 
 
 @pytest.mark.parametrize("spec, message", [
-    ("bates", r"unknown model 'bates'; the models are: BlackScholes, MultiBlackScholes, Heston, Merton"),
+    ("bates", r"unknown model 'bates'; the models are: BlackScholes, MultiBlackScholes, Heston, Merton, LocalVol"),
     ("heston:kapa=2", r"Heston has no parameter 'kapa'; its parameters are: spot"),
     ("heston:kappa", r"'kappa' has no value: write heston:kappa=VALUE"),
     ("heston:kappa=2,3", r"'3' is not NAME=VALUE"),

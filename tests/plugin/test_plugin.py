@@ -8,6 +8,7 @@ on the same files with the same settings (same values to the last digit, same ve
 
 from __future__ import annotations
 
+import concurrent.futures.process  # noqa: F401  (see below)
 import json
 import shutil
 import xml.etree.ElementTree as ET
@@ -25,6 +26,10 @@ SAMPLE = Path(__file__).resolve().parent / "sample_project"
 GOOD = ["payoffs/team_asian.py::TeamAsianCall::one_fixing", "payoffs/team_asian.py::TeamAsianCall::decreasing_in_strike"]
 BROKEN = "payoffs/team_broken.py::TeamBrokenAsianCall::one_fixing"
 
+
+# concurrent.futures.process is imported here, before pytester snapshots sys.modules: an inner
+# run that imported it first (a process pool) would have it dropped afterwards, and a later
+# pool in this process would fail to pickle its work items ("not the same object").
 
 # The inner runs leave out hypothesis' pytest plugin: pytester restores sys.modules after each
 # run, and that plugin would re-import hypothesis every time (seconds per run, nothing tested).

@@ -35,6 +35,7 @@ from ..errors import InputError, LimitcaseError
 from .base import Model, checked_normals_per_step, declared_at
 from .gbm import BlackScholes, MultiBlackScholes
 from .heston import Heston
+from .localvol import LocalVol
 from .merton import Merton
 
 __all__ = ["SHIPPED_MODELS", "ModelSpec", "parse_model_spec", "resolve_model", "resolve_models"]
@@ -44,6 +45,7 @@ SHIPPED_MODELS: dict[str, type[Model]] = {
     "MultiBlackScholes": MultiBlackScholes,
     "Heston": Heston,
     "Merton": Merton,
+    "LocalVol": LocalVol,
 }
 """The shipped models by name (names are matched case-insensitively)."""
 
