@@ -176,3 +176,17 @@ def test_a_failing_simulator_fails_the_audit_naming_the_command():
     assert "ERROR ScriptExits/martingale: ScriptExits: the simulator command exited with status 3" in r.output
     assert "gbm_simulator.py" in r.output and "cannot open the volatility surface" in r.output
     assert "Traceback" not in r.output
+
+
+def test_same_numbers_whatever_the_number_of_workers(tmp_path):
+    values = []
+    for workers in ("1", "2"):
+        out = tmp_path / f"w{workers}.json"
+        r = CliRunner().invoke(main, ["check", "payoffs/vanilla.py", "--model", f"{MODELS}:ScriptGBM",
+                                      "--select", "EuropeanCall/above_forward", "--select", "EuropeanPut/increasing",
+                                      "--paths", "8192", "--workers", workers, "--json", str(out)])
+        assert r.exit_code == 0, r.output
+        import json
+
+        values.append([(c["case"], c["value"], c["stderr"]) for c in json.loads(out.read_text())["cases"]])
+    assert values[0] == values[1] and len(values[0]) == 2
