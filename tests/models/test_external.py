@@ -4,6 +4,7 @@ naming the command."""
 
 from __future__ import annotations
 
+import re
 import struct
 import sys
 from pathlib import Path
@@ -14,7 +15,7 @@ from click.testing import CliRunner
 
 from limitcase.cli import main
 from limitcase.engine import evaluate
-from limitcase.errors import ModelError
+from limitcase.errors import InputError, ModelError
 from limitcase.models.external import ExternalModel, read_path_array, write_path_array
 from limitcase.models.spec import resolve_model
 from limitcase.params import Param
@@ -190,3 +191,29 @@ def test_same_numbers_whatever_the_number_of_workers(tmp_path):
 
         values.append([(c["case"], c["value"], c["stderr"]) for c in json.loads(out.read_text())["cases"]])
     assert values[0] == values[1] and len(values[0]) == 2
+
+
+# --- declared in a TOML file, without Python ------------------------------------------------------
+
+
+def test_a_toml_declared_simulator_is_audited():
+    r = CliRunner().invoke(main, ["audit", f"{HERE / 'script_gbm.toml'}:vol=0.3", "--only", "martingale",
+                                  "--only", "steps", "--paths", "20000"])
+    assert r.exit_code == 0, r.output
+    assert re.search(r"^TomlGBM\s+steps_limit\s.*PASS$", r.output, re.M)  # against its Black-Scholes claim
+
+
+@pytest.mark.parametrize("text, message", [
+    ('name = "X"\ncommand = ["sim", "{output}"]\ncolour = 1\n', r"unknown key 'colour'; the keys are: name, command"),
+    ('name = "X"\ntimeout = = 3\ncommand = ["sim", "{output}"]\n', r"not a valid TOML file: .*line 2"),
+    ('name = "X"\ncommand = ["sim", "{output}"]\n[params]\nspot = {low = 0}\n', r"params.spot: no 'default'"),
+    ('name = "X"\ncommand = ["sim", "{outptu}"]\n[params]\nspot = 1\nrate = 0\ndividend = 0\n',
+     r"model class X: command argument '\{outptu\}' uses the unknown placeholder"),
+    ('name = "X"\ncommand = ["sim", "{output}"]\nreference = "heston"\n', r"reference = 'heston'; the one known"),
+    ('name = "X"\n', r"no 'command'"),
+])
+def test_toml_mistakes_name_the_file_and_key(tmp_path, text, message):
+    f = tmp_path / "engine.toml"
+    f.write_text(text)
+    with pytest.raises(InputError, match=rf"{re.escape(str(f))}.*{message}"):
+        resolve_model(str(f))

@@ -57,7 +57,8 @@ import numpy as np
 from ..errors import ModelError
 from .base import Model, Simulated, declared_at
 
-__all__ = ["ExternalModel", "read_path_array", "write_path_array", "PATH_ARRAY_MAGIC", "PLACEHOLDERS"]
+__all__ = ["ExternalModel", "external_from_config", "read_path_array", "write_path_array", "PATH_ARRAY_MAGIC",
+           "PLACEHOLDERS"]
 
 PATH_ARRAY_MAGIC = b"LCPATHS1"
 """The first 8 bytes of a path array file (ASCII)."""
@@ -138,6 +139,8 @@ class ExternalModel(Model):
     command: ClassVar[tuple[str, ...]] = ()
     timeout: ClassVar[float] = 60.0
     exact: ClassVar[bool] = True
+    here: ClassVar[str | None] = None
+    """The folder ``{here}`` names (default: the folder of the file defining the class)."""
 
     def __init_subclass__(cls, **kwargs: Any) -> None:
         super().__init_subclass__(**kwargs)
@@ -161,7 +164,7 @@ class ExternalModel(Model):
         values.update(
             seed=int(seed), paths=int(paths), dates=int(times.size), assets=int(self.n_assets),
             times_file=times_file, times=",".join(repr(float(t)) for t in times), output=output,
-            here=_folder_of(type(self)),
+            here=type(self).here or _folder_of(type(self)),
         )
         try:
             return [str(a).format_map(values) for a in type(self).command]
@@ -274,3 +277,83 @@ def _check_command(cls: type) -> None:
     if isinstance(t, bool) or not isinstance(t, (int, float)) or not (t > 0 and math.isfinite(t)):
         raise ModelError(f"{where}: timeout = {t!r}; give the seconds a run may take, a number > 0")
 
+
+
+CONFIG_KEYS = ("name", "command", "timeout", "exact", "reference", "params")
+"""The keys of an external model's TOML file (see docs/simulator-files.md)."""
+
+PARAM_KEYS = ("default", "low", "high", "low_open", "high_open", "integer", "doc")
+
+
+def external_from_config(path: str | Path) -> type[ExternalModel]:
+    """An :class:`ExternalModel` class from a small TOML file, for a simulator whose authors
+    write no Python (keys: ``name``, ``command``, ``timeout``, ``exact``, ``reference``, and a
+    ``[params]`` table; see ``docs/simulator-files.md``). Raises :class:`ModelError` naming
+    the file and the key for anything wrong in it."""
+    import tomllib
+
+    from ..params import Param
+
+    p = Path(path)
+    try:
+        doc = tomllib.loads(p.read_text(encoding="utf-8"))
+    except FileNotFoundError:
+        raise ModelError(f"{p}: no such file") from None
+    except (tomllib.TOMLDecodeError, UnicodeDecodeError) as exc:
+        raise ModelError(f"{p}: not a valid TOML file: {exc}") from exc
+    unknown = sorted(set(doc) - set(CONFIG_KEYS))
+    if unknown:
+        raise ModelError(f"{p}: unknown key {unknown[0]!r}; the keys are: {', '.join(CONFIG_KEYS)}")
+    name = doc.get("name", p.stem.title().replace("_", "").replace("-", ""))
+    if not isinstance(name, str) or not name.isidentifier():
+        raise ModelError(f"{p}: name = {name!r} must be a name usable as a class name (letters, digits, _)")
+    if "command" not in doc:
+        raise ModelError(f"{p}: no 'command'; give command = [\"./my_engine\", \"--out\", \"{{output}}\", ...]")
+    body: dict[str, Any] = {"__module__": __name__, "__doc__": f"External simulator declared in {p}.",
+                            "here": str(p.resolve().parent),
+                            "command": tuple(doc["command"]) if isinstance(doc["command"], list) else doc["command"]}
+    for key in ("timeout", "exact"):
+        if key in doc:
+            body[key] = doc[key]
+    params = doc.get("params", {})
+    if not isinstance(params, dict):
+        raise ModelError(f"{p}: [params] must be a table of NAME = number or NAME = {{default = ..., low = ...}}")
+    for pname, spec in params.items():
+        where = f"{p}: params.{pname}"
+        if not pname.isidentifier() or pname in PLACEHOLDERS:
+            raise ModelError(f"{where}: not a usable parameter name (it must be a name, not one of "
+                             f"{', '.join(PLACEHOLDERS)})")
+        if isinstance(spec, dict):
+            bad = sorted(set(spec) - set(PARAM_KEYS))
+            if bad or "default" not in spec:
+                raise ModelError(f"{where}: " + (f"unknown key {bad[0]!r}" if bad else "no 'default'")
+                                 + f"; the keys are: {', '.join(PARAM_KEYS)}")
+            try:
+                body[pname] = Param(**spec)
+            except Exception as exc:
+                raise ModelError(f"{where}: {exc}") from exc
+        elif isinstance(spec, (int, float)) and not isinstance(spec, bool):
+            body[pname] = Param(float(spec))
+        else:
+            raise ModelError(f"{where} = {spec!r}: give a number or a table {{default = ..., low = ..., high = ...}}")
+    reference = doc.get("reference")
+    if reference is not None:
+        if reference != "black-scholes":
+            raise ModelError(f"{p}: reference = {reference!r}; the one known is \"black-scholes\" (the simulator "
+                             "claims geometric Brownian motion with the parameters spot, rate, dividend, vol)")
+        missing = [k for k in ("spot", "rate", "dividend", "vol") if k not in params]
+        if missing:
+            raise ModelError(f"{p}: reference = \"black-scholes\" needs the parameter {missing[0]!r} in [params]")
+        body["call_price"] = _black_scholes_call
+    try:
+        return type(name, (ExternalModel,), body)
+    except ModelError as exc:
+        raise ModelError(f"{p}: {exc}") from exc
+
+
+def _black_scholes_call(self: Any, strike: float, maturity: float) -> float:
+    """Black-Scholes (1973) call at the model's spot, rate, dividend and vol: the reference a
+    configuration declaring ``reference = "black-scholes"`` claims."""
+    from ..references import black_scholes
+
+    return float(black_scholes(self.spot, strike, maturity, self.rate, self.dividend, self.vol, "call"))

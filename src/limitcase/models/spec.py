@@ -4,6 +4,7 @@ Syntax (our own)::
 
     SPEC      = TARGET [":" CLASS] [":" OVERRIDES]
     TARGET    = a shipped model's name (any case)  |  a .py file  |  a folder
+              |  a .toml file declaring an external simulator (docs/simulator-files.md)
     OVERRIDES = NAME "=" VALUE {"," NAME "=" VALUE}
     VALUE     = a number (1e-3, inf), a list [100, 90], true / false, or a word (euler)
 
@@ -62,7 +63,7 @@ class ModelSpec:
 
     @property
     def is_path(self) -> bool:
-        return self.target.endswith(".py") or Path(self.target).is_dir() or "/" in self.target
+        return self.target.endswith((".py", ".toml")) or Path(self.target).is_dir() or "/" in self.target
 
 
 def _value(text: str, spec: str, name: str) -> Any:
@@ -123,10 +124,12 @@ def parse_model_spec(text: str) -> ModelSpec:
     if not spec:
         raise InputError("empty model spec; give a shipped model's name (heston) or a file (my_model.py)")
     # the target ends at the first ':' after a '.py' or, for a name or folder, at the first ':'
-    idx = spec.find(".py:")
+    idx, ext = spec.find(".py:"), 3
+    if idx < 0:
+        idx, ext = spec.find(".toml:"), 5
     if idx >= 0:
-        target, rest = spec[: idx + 3], spec[idx + 4:]
-    elif spec.endswith(".py"):
+        target, rest = spec[: idx + ext], spec[idx + ext + 1:]
+    elif spec.endswith((".py", ".toml")):
         target, rest = spec, ""
     else:
         target, _, rest = spec.partition(":")
@@ -186,6 +189,16 @@ def resolve_models(text: str) -> list[Model]:
                              f"{s.target}:{s.class_name}=VALUE")
         return [_instantiate(cls, s.overrides, s.text)]
     path = Path(s.target)
+    if path.suffix == ".toml":  # an external simulator declared in a small file
+        from .external import external_from_config
+
+        try:
+            cls = external_from_config(path)
+        except LimitcaseError as exc:
+            raise InputError(str(exc)) from exc
+        if s.class_name not in (None, cls.__name__):
+            raise InputError(f"model spec {text!r}: {path} declares {cls.__name__}, not {s.class_name!r}")
+        return [_instantiate(cls, s.overrides, s.text)]
     selector = f"{path}:{s.class_name}" if s.class_name else str(path)
     classes = load_models([selector])
     if not classes:
