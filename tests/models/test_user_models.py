@@ -186,3 +186,12 @@ def test_a_declaration_error_in_a_model_file_is_bad_input_naming_file_line_class
     assert r.exit_code == 2
     assert f"{f}:6: model class Sloppy: no 'rate' parameter; declare rate = Param(0.05" in r.output
     assert "Traceback" not in r.output
+
+
+def test_audit_of_a_folder_reports_a_file_that_does_not_import_and_audits_the_rest(tmp_path):
+    (tmp_path / "calm.py").write_text("from limitcase.models import BlackScholes\n\n\nclass Calm(BlackScholes):\n    pass\n")
+    (tmp_path / "quits.py").write_text("import sys\nsys.exit(0)\n")
+    r = _audit(tmp_path, "--only", "martingale", "--paths", "20000")
+    assert r.exit_code == 1, r.output
+    assert re.search(r"^Calm\s+martingale\s.*PASS$", r.output, re.M)
+    assert "quits.py:2: the file does not import: it calls sys.exit(0)" in r.output

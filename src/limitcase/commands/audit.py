@@ -20,13 +20,14 @@ def _audit_names() -> tuple[str, ...]:
     return AUDITS
 
 
-def _chosen_models(specs: tuple[str, ...]) -> dict:
+def _chosen_models(specs: tuple[str, ...], failures: list) -> dict:
     """Models by name from the specs (shipped names with overrides, files, folders,
-    ``file.py:Class``; see :mod:`limitcase.models.spec`); a name taken twice gets its file."""
+    ``file.py:Class``; see :mod:`limitcase.models.spec`); a name taken twice gets its file.
+    A file in a folder that does not import goes to ``failures``; the rest are audited."""
     from ..loader import qualified_names
     from ..models.spec import resolve_models
 
-    found = [m for s in specs for m in resolve_models(s)]
+    found = [m for s in specs for m in resolve_models(s, failures=failures)]
     names = qualified_names([type(m) for m in found])
     chosen: dict = {}
     for m in found:
@@ -58,7 +59,8 @@ def command(model_names: tuple[str, ...], paths: int, seed: int, alpha: float, j
     from ..audits import AUDITS, default_models, run_audits
     from ..report import render_summary, render_table
 
-    models = _chosen_models(model_names) or default_models()
+    failures: list = []
+    models = _chosen_models(model_names, failures) or ({} if failures else default_models())
     audits = tuple(a for a in AUDITS if a in only) if only else AUDITS
     progress = Progress("auditing", len(models))
     try:
@@ -66,6 +68,10 @@ def command(model_names: tuple[str, ...], paths: int, seed: int, alpha: float, j
                             drift_correction=drift_correction, select=selects, progress=progress)
     finally:
         progress.close()
+    from ..verdict import Outcome
+
+    result.outcomes.extend(Outcome(product=str(f.path), case="import", kind="load", verdict="error",
+                                   message=f.message) for f in failures)
     if not result.outcomes:
         raise InputFailure("no audit outcomes" + (" match --select" if selects else ""))
     click.echo(render_table(result.outcomes))

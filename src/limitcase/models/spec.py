@@ -170,9 +170,11 @@ def _instantiate(cls: type[Model], overrides: dict[str, Any], spec: str) -> Mode
     return model
 
 
-def resolve_models(text: str) -> list[Model]:
+def resolve_models(text: str, failures: list | None = None) -> list[Model]:
     """Every model a spec names: one for a shipped name or ``file.py:Class``, each class of a
-    file or folder otherwise (overrides then need exactly one class)."""
+    file or folder otherwise (overrides then need exactly one class). With ``failures`` (a
+    list), a file found in a folder that does not import is appended there as a
+    :class:`~limitcase.loader.LoadFailure` and the other files are still searched."""
     from ..loader import load_models
 
     s = parse_model_spec(text)
@@ -200,7 +202,9 @@ def resolve_models(text: str) -> list[Model]:
             raise InputError(f"model spec {text!r}: {path} declares {cls.__name__}, not {s.class_name!r}")
         return [_instantiate(cls, s.overrides, s.text)]
     selector = f"{path}:{s.class_name}" if s.class_name else str(path)
-    classes = load_models([selector])
+    classes = load_models([selector], failures=failures)
+    if not classes and failures:
+        return []
     if not classes:
         raise InputError(f"{path}: no Model classes defined there (a subclass of limitcase.models.Model, "
                          "not marked abstract = True)")
