@@ -79,6 +79,7 @@ def command(model_names: tuple[str, ...], paths: int, seed: int, alpha: float, j
     reproduce = f"limitcase audit {' '.join(model_names)}".rstrip()
     click.echo(render_summary(result, reproduce=reproduce))
     times = result.extra.get("timings", {})
-    click.echo("seconds: " + ", ".join(f"{m} {sum(t.values()):.1f}" for m, t in times.items()))
+    if times:
+        click.echo("seconds: " + ", ".join(f"{m} {sum(t.values()):.1f}" for m, t in times.items()))
     write_outputs(result, "audit", json_path, junit_path, reproduce)
     sys.exit(EXIT_OK if result.ok else EXIT_FAIL)
