@@ -47,6 +47,7 @@ __all__ = [
     "LoadFailure",
     "split_selector",
     "qualified_names",
+    "folder_files",
 ]
 
 CATALOGUE_PACKAGE = "limitcase_payoffs"
@@ -165,7 +166,9 @@ def _skipped_file(f: Path) -> bool:
             or n.endswith("_test.py"))
 
 
-def _folder_files(root: Path) -> list[Path]:
+def folder_files(root: Path) -> list[Path]:
+    """The ``.py`` files of a folder and its subfolders that are searched for classes (not
+    hidden folders, virtual environments, site-packages, setup, conftest or test files)."""
     out: list[Path] = []
     for here, dirs, files in os.walk(root):
         d = Path(here)
@@ -184,7 +187,7 @@ def _files(paths: Iterable[Path]) -> list[tuple[Path, str | None, bool]]:
         if p.is_dir():
             if cls:
                 raise InputError(f"{raw}: a class can be picked from a file (file.py:Class), not a folder")
-            files.extend((f.resolve(), None, False) for f in _folder_files(p))
+            files.extend((f.resolve(), None, False) for f in folder_files(p))
         elif p.suffix == ".py":
             files.append((p.resolve(), cls, True))
         else:

@@ -15,7 +15,7 @@ from click.testing import CliRunner
 
 from limitcase.cli import main
 from limitcase.engine import evaluate
-from limitcase.errors import InputError, ModelError
+from limitcase.errors import DeclarationError, InputError, ModelError
 from limitcase.models.external import ExternalModel, read_path_array, write_path_array
 from limitcase.models.spec import resolve_model
 from limitcase.params import Param
@@ -143,7 +143,7 @@ def test_a_missing_command_is_named():
 ])
 def test_declaration_errors_name_file_class_and_fix(attrs, message):
     body = {"spot": Param(100.0, low=0.0, low_open=True), "rate": Param(0.05), "dividend": Param(0.0), **attrs}
-    with pytest.raises(ModelError, match=r"test_external.py(:\d+)?: model class Bad: .*" + message):
+    with pytest.raises(DeclarationError, match=r"test_external.py(:\d+)?: model class Bad: .*" + message):
         type("Bad", (ExternalModel,), {"__module__": __name__, **body})
 
 

@@ -10,7 +10,7 @@ import pytest
 from click.testing import CliRunner
 
 from limitcase.cli import main
-from limitcase.errors import InputError, ModelError, ParamError
+from limitcase.errors import DeclarationError, InputError, ParamError
 from limitcase.models import BlackScholes, Degeneration, Model, MultiBlackScholes
 from limitcase.models.spec import parse_model_spec, resolve_model
 from limitcase.params import Param
@@ -115,7 +115,6 @@ _OK = dict(rate=Param(0.05), initial=lambda self: None, dividend_yields=lambda s
 @pytest.mark.parametrize("change, message", [
     ({"rate": None}, r"no 'rate' parameter; declare rate = Param\(0.05"),
     ({"_simulate": None}, r"_simulate\(\) is not defined; define _simulate\(self, times, z, rng\)"),
-    ({"vol": Param(7.0, low=0.0, high=5.0)}, r"the default of parameter 'vol' is invalid .*; give vol = Param"),
     ({"normals_per_step": 2}, r"normals_per_step = 2 is not a method; write def normals_per_step\(self\) -> int: return 2"),
     ({"n_assets": 0}, r"n_assets = 0; n_assets must be a whole number >= 1"),
     ({"degenerations": (Degeneration("x", {"vl": 0.0}, becomes=lambda m: m),)},
@@ -123,7 +122,7 @@ _OK = dict(rate=Param(0.05), initial=lambda self: None, dividend_yields=lambda s
 ])
 def test_declaration_errors_are_raised_at_class_definition(change, message):
     body = {k: v for k, v in {**_OK, **change}.items() if v is not None}
-    with pytest.raises(ModelError, match=r"test_user_models.py.*model class Mine: " + message):
+    with pytest.raises(DeclarationError, match=r"test_user_models.py.*model class Mine: " + message):
         _declare(**body)
 
 
@@ -195,3 +194,8 @@ def test_audit_of_a_folder_reports_a_file_that_does_not_import_and_audits_the_re
     assert r.exit_code == 1, r.output
     assert re.search(r"^Calm\s+martingale\s.*PASS$", r.output, re.M)
     assert "quits.py:2: the file does not import: it calls sys.exit(0)" in r.output
+
+
+def test_a_default_outside_its_range_is_refused_at_class_definition():
+    with pytest.raises(DeclarationError, match=r"Mine: the default of parameter 'vol' is invalid: vol=7.0 is outside \[0, 5\]"):
+        _declare(**_OK, vol=Param(7.0, low=0.0, high=5.0))

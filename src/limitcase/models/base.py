@@ -18,7 +18,7 @@ from typing import Any, ClassVar
 
 import numpy as np
 
-from ..errors import ModelError, NoReference
+from ..errors import DeclarationError, ModelError, NoReference
 from ..params import Parametrised
 
 __all__ = ["Model", "Simulated", "Degeneration", "declared_at", "checked_normals_per_step"]
@@ -149,8 +149,8 @@ def declared_at(cls: type) -> str:
     return f"{path}:{line}"
 
 
-def _declaration_error(cls: type, what: str, fix: str) -> ModelError:
-    return ModelError(f"{declared_at(cls)}: model class {cls.__qualname__}: {what}; {fix}")
+def _declaration_error(cls: type, what: str, fix: str) -> DeclarationError:
+    return DeclarationError(f"{declared_at(cls)}: model class {cls.__qualname__}: {what}; {fix}")
 
 
 def _overrides(cls: type, name: str) -> bool:
@@ -161,13 +161,7 @@ def _check_declaration(cls: type) -> None:
     """Refuse, at class definition, a model declaration the engine cannot use, naming the file,
     the class, the parameter and the fix (rather than failing deep inside a run)."""
     specs = cls._param_specs  # type: ignore[attr-defined]
-    for name, spec in specs.items():
-        try:
-            spec.validate(spec.default, owner=cls.__qualname__)
-        except Exception as exc:
-            raise _declaration_error(
-                cls, f"the default of parameter {name!r} is invalid ({exc})",
-                f"give {name} = Param(default, low=..., high=...) a default inside its range") from None
+    # a default outside its range is refused by Parametrised (DeclarationError)
     if "rate" not in specs and not _overrides(cls, "short_rate"):
         raise _declaration_error(
             cls, "no 'rate' parameter",

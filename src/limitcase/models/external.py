@@ -54,7 +54,7 @@ from typing import Any, ClassVar, Sequence
 
 import numpy as np
 
-from ..errors import ModelError
+from ..errors import DeclarationError, ModelError
 from .base import Model, Simulated, declared_at
 
 __all__ = ["ExternalModel", "external_from_config", "read_path_array", "write_path_array", "PATH_ARRAY_MAGIC",
@@ -251,31 +251,31 @@ def _check_command(cls: type) -> None:
     where = f"{declared_at(cls)}: model class {cls.__qualname__}"
     cmd = getattr(cls, "command", ())
     if isinstance(cmd, str):
-        raise ModelError(f"{where}: command is one string {cmd!r}; give a tuple of arguments, e.g. "
+        raise DeclarationError(f"{where}: command is one string {cmd!r}; give a tuple of arguments, e.g. "
                          f"{tuple(shlex.split(cmd))!r} (it is run without a shell)")
     if not isinstance(cmd, (tuple, list)) or not cmd or not all(isinstance(a, str) for a in cmd):
-        raise ModelError(f"{where}: command = {cmd!r}; give a non-empty tuple of strings, e.g. "
+        raise DeclarationError(f"{where}: command = {cmd!r}; give a non-empty tuple of strings, e.g. "
                          "(\"./my_engine\", \"--seed\", \"{seed}\", \"--out\", \"{output}\")")
     known = set(PLACEHOLDERS) | set(cls._param_specs)  # type: ignore[attr-defined]
     for arg in cmd:
         try:
             fields = [f for _, f, _, _ in Formatter().parse(arg) if f is not None]
         except ValueError as exc:
-            raise ModelError(f"{where}: command argument {arg!r}: {exc} (write {{{{ for a literal brace)") from exc
+            raise DeclarationError(f"{where}: command argument {arg!r}: {exc} (write {{{{ for a literal brace)") from exc
         for f in fields:
             base = f.split(".")[0].split("[")[0]
             if base not in known:
-                raise ModelError(f"{where}: command argument {arg!r} uses the unknown placeholder {{{f}}}; "
+                raise DeclarationError(f"{where}: command argument {arg!r} uses the unknown placeholder {{{f}}}; "
                                  f"known: {', '.join(sorted(known))}")
     if "{output}" not in "".join(cmd):
-        raise ModelError(f"{where}: the command never names {{output}}, the file it must write the paths to")
+        raise DeclarationError(f"{where}: the command never names {{output}}, the file it must write the paths to")
     specs = cls._param_specs  # type: ignore[attr-defined]
     for hook, param in (("initial", "spot"), ("dividend_yields", "dividend")):
         if getattr(cls, hook) is getattr(ExternalModel, hook) and param not in specs:
-            raise ModelError(f"{where}: no {param!r} parameter; declare {param} = Param(...) or define {hook}()")
+            raise DeclarationError(f"{where}: no {param!r} parameter; declare {param} = Param(...) or define {hook}()")
     t = getattr(cls, "timeout", None)
     if isinstance(t, bool) or not isinstance(t, (int, float)) or not (t > 0 and math.isfinite(t)):
-        raise ModelError(f"{where}: timeout = {t!r}; give the seconds a run may take, a number > 0")
+        raise DeclarationError(f"{where}: timeout = {t!r}; give the seconds a run may take, a number > 0")
 
 
 
@@ -347,7 +347,7 @@ def external_from_config(path: str | Path) -> type[ExternalModel]:
         body["call_price"] = _black_scholes_call
     try:
         return type(name, (ExternalModel,), body)
-    except ModelError as exc:
+    except (ModelError, DeclarationError) as exc:
         raise ModelError(f"{p}: {exc}") from exc
 
 
