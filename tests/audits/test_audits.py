@@ -282,6 +282,7 @@ def test_reference_registry_follows_the_class_hierarchy():
     assert source.startswith("Heston") and value == reference_price(Heston(), option)[0]
 
     class Unknown(Model):
+        abstract = True  # declares no simulation: only its (missing) reference is asked for
         rate = BlackScholes.rate
 
     with pytest.raises(NoReference, match="no reference price registered for Unknown; register one"):
