@@ -97,7 +97,7 @@ def test_parameters_reach_the_simulator_and_replace_keeps_the_class():
 
 def test_a_forward_is_priced_right_through_the_engine():
     """Discounted mean of S(1) against S0 exp(-q): Black and Scholes (1973), risk-neutral drift."""
-    from limitcase.audits import _Delivery
+    from limitcase.audits.probes import _Delivery
 
     m = _model()
     joint = evaluate([_Delivery("S(1)", [1.0], 1, [0])], m, paths=8192, seed=5, method="plain")
