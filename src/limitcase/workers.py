@@ -179,6 +179,8 @@ class InlinePool:
 def _worker_main(conn: Any) -> None:
     """A worker's loop: receive ``(tid, fn, args)``, send ``(tid, ok, value)`` back."""
     signal.signal(signal.SIGINT, signal.SIG_IGN)  # the parent handles Ctrl-C
+    if hasattr(signal, "pthread_sigmask"):
+        signal.pthread_sigmask(signal.SIG_UNBLOCK, {signal.SIGINT})
     _mark_worker()
     while True:
         try:
@@ -207,23 +209,25 @@ def _worker_main(conn: Any) -> None:
 
 
 @contextmanager
-def _sigint_ignored() -> Iterator[None]:
-    """Ignore SIGINT around a fork, so a child never sees it before it installs its own."""
-    if threading.current_thread() is not threading.main_thread():
+def _sigint_held() -> Iterator[None]:
+    """Hold SIGINT back around a fork: the child starts with it blocked (and ignores it
+    before unblocking); a Ctrl-C that arrives meanwhile reaches the parent just after,
+    instead of being lost or reaching a half-started worker."""
+    if not hasattr(signal, "pthread_sigmask"):  # pragma: no cover - not POSIX
         yield
         return
-    old = signal.signal(signal.SIGINT, signal.SIG_IGN)
+    signal.pthread_sigmask(signal.SIG_BLOCK, {signal.SIGINT})
     try:
         yield
     finally:
-        signal.signal(signal.SIGINT, old)
+        signal.pthread_sigmask(signal.SIG_UNBLOCK, {signal.SIGINT})
 
 
 class _Worker:
     def __init__(self, ctx: Any) -> None:
         self.conn, child = ctx.Pipe(duplex=True)
         self.proc = ctx.Process(target=_worker_main, args=(child,), daemon=True)
-        with _sigint_ignored():
+        with _sigint_held():
             self.proc.start()
         child.close()
         self.task: tuple[int, Callable, tuple, float | None] | None = None
