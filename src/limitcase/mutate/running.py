@@ -17,7 +17,7 @@ import numpy as np
 from ..errors import ParamError
 from ..product import Product
 from ..reduce import checks_for
-from ..suite import DEFAULT_ALPHA, DEFAULT_PATHS, DEFAULT_SEED, run_checks
+from ..suite import DEFAULT_ALPHA, DEFAULT_PATHS, DEFAULT_SEED, run_check
 from ..verdict import Outcome, finalise
 from ..workers import Lost, open_pool
 from .advice import suggest, suggest_hidden
@@ -49,16 +49,57 @@ _REGISTRY: dict[str, Any] = {}
 dynamically built class cannot be pickled, but a forked worker inherits it)."""
 
 
-def _safe_run(cls: type[Product], paths: int, seed: int, alpha: float, method: str
-              ) -> tuple[list[Outcome], str]:
+def _run_each(cls: type[Product], paths: int, s: dict, order: Sequence[int] | None = None,
+              baseline: Sequence[str] | None = None
+              ) -> tuple[list[Outcome | None], list[float], str, int | None]:
+    """Run a product's checks one by one (``order``: cheapest first, when known), each on its
+    own streams, so the numbers are those of a run of all of them together.
+
+    Returns ``(raw outcomes before Holm, CPU seconds per check, crash message, stopped)``.
+    With ``baseline`` (the original's verdicts), the run stops at the first check the
+    original passes that is certain to fail under Holm over the product's ``M`` checks,
+    whatever the others give: a broken path-by-path identity, or ``p < alpha / M`` (Holm
+    rejects every p-value below ``alpha / m``, and ``m <= M``). ``stopped`` is its index."""
+    raw: list[Outcome | None] = []
+    seconds: list[float] = []
     try:
         with np.errstate(all="ignore"), warnings.catch_warnings():
             warnings.simplefilter("ignore")
             checks = checks_for(cls)
-            result = run_checks(checks, paths=paths, seed=seed, alpha=alpha, method=method)
-        return result.outcomes, ""
+            raw = [None] * len(checks)
+            seconds = [0.0] * len(checks)
+            limit = s["alpha"] / max(1, len(checks))
+            for j in (range(len(checks)) if order is None else order):
+                t0 = time.process_time()
+                o = run_check(checks[j], paths=paths, seed=s["seed"], method=s["method"], alpha=s["alpha"])
+                seconds[j] = time.process_time() - t0
+                raw[j] = o
+                if (baseline is not None and j < len(baseline) and baseline[j] == "pass" and o.verdict != "error"
+                        and (o.pathwise_ok is False or (o.p_value is not None and o.p_value < limit))):
+                    return raw, seconds, "", j
+        return raw, seconds, "", None
     except Exception as exc:  # the mutant broke the check machinery itself: a visible failure
-        return [], f"the check run raised {type(exc).__name__}: {exc}"
+        return raw, seconds, f"the check run raised {type(exc).__name__}: {exc}", None
+
+
+def _judge(cls: type[Product], paths: int, s: dict, baseline: Sequence[str], order: Sequence[int] | None
+           ) -> tuple[str, list[str], str]:
+    """``(status, cases, message)`` of a mutant's checks at ``paths``, as
+    ``limitcase check`` would judge the product (Holm over its checks), stopping at the
+    first check certain to fail."""
+    raw, _, crash, stopped = _run_each(cls, paths, s, order, baseline)
+    if stopped is not None:
+        o = raw[stopped]
+        assert o is not None
+        m = len(raw)
+        why = ("path-by-path identity broken" if o.pathwise_ok is False
+               else f"p={o.p_value:.3g} < alpha/{m}: it fails under Holm over the product's {m} checks "
+                    "whatever the others give")
+        message = f"{o.case}: {o.message + '; ' if o.message else ''}{why}"
+        return "caught", [o.case], message[:600]
+    if crash:
+        return "error", [], crash
+    return _detection(finalise([o for o in raw if o is not None], s["alpha"]), "", baseline)
 
 
 def _detection(outcomes: list[Outcome], crash: str, baseline: Sequence[str]) -> tuple[str, list[str], str]:
@@ -83,14 +124,18 @@ def _detection(outcomes: list[Outcome], crash: str, baseline: Sequence[str]) -> 
     return "survived", [], ""
 
 
-def _task_original(index: int, paths: int) -> tuple[int, int, list[Outcome], float]:
+def _task_original(index: int, paths: int) -> tuple[int, int, list[Outcome], float, list[float]]:
+    """The unmutated product's checks at ``paths``: outcomes after Holm over its checks, CPU
+    seconds in all and per check (the cost order its mutants' checks then run in)."""
     s = _REGISTRY["settings"]
     cls = _REGISTRY["products"][index]
     t0 = time.process_time()
-    outcomes, crash = _safe_run(cls, paths, s["seed"], s["alpha"], s["method"])
+    raw, seconds, crash, _ = _run_each(cls, paths, s)
     if crash:
         outcomes = [Outcome(product=cls.__name__, case="(run)", kind="run", verdict="error", message=crash)]
-    return index, paths, outcomes, time.process_time() - t0
+    else:
+        outcomes = finalise([o for o in raw if o is not None], s["alpha"])
+    return index, paths, outcomes, time.process_time() - t0, seconds
 
 
 def _safe_equivalence(mutant: Mutant, paths: int, seed: int, stop_early: bool) -> Equivalence:
@@ -100,12 +145,13 @@ def _safe_equivalence(mutant: Mutant, paths: int, seed: int, stop_early: bool) -
         return Equivalence(False, (PointDifference("(comparison)", note=f"{type(exc).__name__}: {exc}"),))
 
 
-def _task_mutant(mid: int, stage: str, baseline: Sequence[str]) -> dict:
+def _task_mutant(mid: int, stage: str, baseline: Sequence[str], order: Sequence[int] | None = None) -> dict:
     """One mutant's stage: ``"first"`` (equivalence test, stopping at the first difference,
     then the checks with the quick budget) or ``"full"`` (the checks with the full budget,
     then, for a survivor, the complete comparison at every point for the suggestion).
     The result carries the CPU seconds spent comparing (``cpu_equivalence``) and checking
-    (``cpu_checks``)."""
+    (``cpu_checks``). ``order``: the checks' order, cheapest first (by the original's CPU
+    seconds); the checks stop at the first one certain to fail under Holm."""
     s = _REGISTRY["settings"]
     mutant: Mutant = _REGISTRY["mutants"][mid]
     out: dict[str, Any] = {"mid": mid, "stage": stage, "cpu_equivalence": 0.0, "cpu_checks": 0.0}
@@ -126,8 +172,7 @@ def _task_mutant(mid: int, stage: str, baseline: Sequence[str]) -> dict:
         paths = s["paths"]
     t1 = time.process_time()
     out["cpu_equivalence"] = t1 - t0
-    outcomes, crash = _safe_run(mutant.cls, paths, s["seed"], s["alpha"], s["method"])
-    status, cases, message = _detection(outcomes, crash, baseline)
+    status, cases, message = _judge(mutant.cls, paths, s, baseline, order)
     out.update(status=status, paths=paths, cases=cases, message=message)
     t2 = time.process_time()
     out["cpu_checks"] = t2 - t1
@@ -245,6 +290,12 @@ def run_mutation(
         return [o.verdict for o in baselines[(i, budget)]]
 
     original_seconds: dict[tuple[int, int], float] = {}
+    check_seconds: dict[tuple[int, int], list[float]] = {}
+
+    def order(i: int, budget: int) -> list[int] | None:
+        """Product ``i``'s checks, cheapest first at ``budget`` (as the original's took)."""
+        cost = check_seconds.get((i, budget))
+        return None if not cost else sorted(range(len(cost)), key=lambda j: cost[j])
 
     def limit(i: int, budget: int) -> float | None:
         """The time limit of a mutant stage of product ``i`` at ``budget`` paths."""
@@ -253,19 +304,20 @@ def run_mutation(
         return max(TIME_LIMIT_FLOOR, TIME_LIMIT_FACTOR * original_seconds.get((i, budget), 0.0))
 
     def first_stage(k: int, i: int) -> tuple[Callable, tuple, float | None]:
-        return _task_mutant, (k, "first", verdicts(i, quick_paths)), limit(i, quick_paths)
+        return _task_mutant, (k, "first", verdicts(i, quick_paths), order(i, quick_paths)), limit(i, quick_paths)
 
     def full_stage(k: int) -> tuple[Callable, tuple, float | None]:
         i = index_of[mutants[k].original]
-        return _task_mutant, (k, "full", verdicts(i, paths)), limit(i, paths)
+        return _task_mutant, (k, "full", verdicts(i, paths), order(i, paths)), limit(i, paths)
 
     def on_done(res: Any) -> list[tuple]:
         done[0] += 1
         new: list[tuple] = []
         if isinstance(res, tuple):  # an original's run
-            i, budget, outcomes, seconds = res
+            i, budget, outcomes, seconds, per_check = res
             baselines[(i, budget)] = outcomes
             original_seconds[(i, budget)] = seconds
+            check_seconds[(i, budget)] = per_check
             cpu["originals"] += seconds
             if budget == quick_paths:
                 new += [first_stage(k, i) for k in by_product[i]]
@@ -299,8 +351,8 @@ def run_mutation(
             name = product_list[i].__name__
             outcome = Outcome(product=name, case="(run)", kind="run", verdict="error",
                               message=f"the unmutated product's checks at {budget} paths: {lost.detail}")
-            return on_done((i, budget, [outcome], lost.seconds))
-        k, stage, _ = lost.args
+            return on_done((i, budget, [outcome], lost.seconds, []))
+        k, stage = lost.args[:2]
         status = "timeout" if lost.reason == "timeout" else "error"
         return on_done({"mid": k, "stage": stage, "status": status, "cases": [], "message": lost.detail,
                         "paths": quick_paths if stage == "first" else paths,
