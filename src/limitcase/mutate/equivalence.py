@@ -364,9 +364,7 @@ def equivalence(mutant_cls: type[Product], original: type[Product], *, paths: in
     points
         Parameter points (default: :func:`check_points` of the mutant class).
     stop_early
-        Stop at the first point where the mutant differs (enough to know it is real); the
-        simulated comparison then screens every point on one block of paths before the
-        full count.
+        Stop at the first point where the mutant differs (enough to know it is real).
 
     Notes
     -----
@@ -386,17 +384,6 @@ def equivalence(mutant_cls: type[Product], original: type[Product], *, paths: in
         edge.append((pt, orig, n, bad, note))
         if stop_early and (bad or note):
             return Equivalence(False, (PointDifference(pt.label, n, bad, note=note),))
-    if stop_early and paths > BLOCK:
-        # screening: one block of simulated paths at every point first (the same paths as
-        # the first block of the full comparison); most real mutants differ there already
-        for i, (pt, orig, n, bad, note) in enumerate(edge):
-            if note and "dates" in note:
-                return Equivalence(False, (PointDifference(pt.label, n, bad, note=note),))
-            v, diff, se, price, sd, rnote = _random_compare(orig, pt.product, pt.model, BLOCK, seed,
-                                                            case_key(name, "mutation-equivalence", str(i)))
-            pd = PointDifference(pt.label, n, bad, BLOCK, v, diff, se, price, sd, note or rnote)
-            if pd.differs:
-                return Equivalence(False, (pd,))
     for i, (pt, orig, n, bad, note) in enumerate(edge):
         if note and "dates" in note:
             results.append(PointDifference(pt.label, n, bad, note=note))
