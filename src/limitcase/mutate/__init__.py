@@ -59,24 +59,30 @@ the strike at the spot, say).
 
 Budget and verdicts
 -------------------
-Mutants run in parallel on the worker pool every command shares (:mod:`limitcase.workers`). The equivalence test runs first (it
-is cheap, and spares dead-code mutants the checks), then the checks with a small path
-budget (``quick_paths``); only the survivors run again with the full budget (``paths``)
-before being declared survivors. Checks are sampled as ``limitcase check`` samples them
-(``method="auto"`` by default), and a mutant is judged as ``limitcase check`` judges one
-product: Holm over that product's checks. Mutant and original share every random stream,
-so a mutant is caught by its effect, not by the luck of the draw. The original products'
-checks run at both budgets: a case the original fails at its own level cannot catch its
-mutants (it is set aside), and a case that fails under Holm over the whole run, as
-``limitcase check`` would report it on the same products, is a false alarm.
+Mutants run in parallel on the worker pool every command shares (:mod:`limitcase.workers`).
+The equivalence test runs first (it is cheap, and spares dead-code mutants the checks),
+then the checks with a small path budget (``quick_paths``); only the survivors run again
+with the full budget (``paths``) before being declared survivors. Checks are sampled as
+``limitcase check`` samples them (``method="auto"`` by default), and a mutant is judged as
+``limitcase check`` judges one product: Holm over that product's checks. Its checks run one
+by one, cheapest first (by the original's CPU time), each on its own streams, and stop at
+the first check the original passes that is certain to fail under Holm whatever the others
+give (a broken path-by-path identity, or ``p < alpha / M`` over the product's ``M``
+checks): the verdict is the one the whole run would give. Mutant and original share every
+random stream, so a mutant is caught by its effect, not by the luck of the draw. The
+original products' checks run at both budgets: a case the original fails at its own level
+cannot catch its mutants (it is set aside), and a case that fails under Holm over the whole
+run, as ``limitcase check`` would report it on the same products, is a false alarm.
 
 Limits
 ------
-A mutant whose work outlasts the per-task time limit (``task_timeout``) is stopped, its
-worker replaced, and the mutant reported as ``timeout`` (a visible failure, counted as
-detected, apart from the caught ones); a mutant that exhausts memory is not stopped; checks of *other* products that use this one as a leg are not run on its
-mutants (only its own declared checks count, a conservative score); ``run_mutation`` is
-not re-entrant (the worker registry is module state).
+A mutant stage that outlasts the time limit (``time_limit``) is stopped, its worker
+replaced, and the mutant reported as ``timeout`` (a visible failure: counted as detected,
+with the crashes under ``error``, and apart in :meth:`MutationReport.catch`); a mutant
+that exhausts memory is stopped only by the system (its dead worker is then reported as an
+error); checks of *other* products that use this one as a leg are not run on its mutants
+(only its own declared checks count, a conservative score); ``run_mutation`` is not
+re-entrant (the worker registry is module state).
 
 Layout
 ------
