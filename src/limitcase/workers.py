@@ -26,7 +26,6 @@ from __future__ import annotations
 
 import collections
 import multiprocessing
-import os
 import pickle
 import signal
 import threading
@@ -37,6 +36,8 @@ from contextlib import contextmanager
 from dataclasses import dataclass
 from multiprocessing.connection import wait as wait_ready
 from typing import Any, Callable, Iterable, Iterator, Sequence
+
+from .settings import default_workers
 
 __all__ = [
     "Lost",
@@ -77,14 +78,6 @@ class Lost:
     reason: str
     seconds: float
     detail: str
-
-
-def default_workers() -> int:
-    """The cores this process may use."""
-    try:
-        return max(1, len(os.sched_getaffinity(0)))
-    except (AttributeError, OSError):  # pragma: no cover - not Linux
-        return max(1, os.cpu_count() or 1)
 
 
 _IN_WORKER = False
