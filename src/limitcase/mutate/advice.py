@@ -17,6 +17,8 @@ from ..verdict import POWER
 from .equivalence import Equivalence, PointDifference
 from .mutants import Mutant
 
+__all__ = ["suggest", "suggest_hidden"]
+
 # ----------------------------------------------------------------------------------------
 # what check would catch a survivor
 

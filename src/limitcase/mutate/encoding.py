@@ -11,12 +11,14 @@ from typing import Any
 
 import numpy as np
 
+__all__ = ["json_safe"]
 
-def _json_safe(x: Any) -> Any:
+
+def json_safe(x: Any) -> Any:
     if isinstance(x, dict):
-        return {k: _json_safe(v) for k, v in x.items()}
+        return {k: json_safe(v) for k, v in x.items()}
     if isinstance(x, (list, tuple)):
-        return [_json_safe(v) for v in x]
+        return [json_safe(v) for v in x]
     if isinstance(x, (np.floating, float)):
         v = float(x)
         if math.isnan(v):

@@ -13,18 +13,31 @@ from typing import Any, Sequence
 
 import numpy as np
 
-from ..engine import BLOCK, PathRule, case_key, evaluate
+from ..engine import PathRule, case_key, evaluate
 from ..errors import LimitcaseError
 from ..models.base import Model
 from ..product import Cashflows, Observed, Product
 from ..reduce import Check, checks_for
+from ..settings import MUTATE_EQUIVALENCE_PATHS, MUTATE_EQUIVALENCE_REGRESSION_PATHS
 from ..suite import DEFAULT_SEED
-from .encoding import _json_safe
+from .encoding import json_safe
 
-EQUIVALENCE_PATHS = 4 * BLOCK
+__all__ = [
+    "EQUIVALENCE_PATHS",
+    "Equivalence",
+    "Point",
+    "PointDifference",
+    "check_points",
+    "edge_paths",
+    "equivalence",
+    "probe_difference",
+    "probe_point",
+]
+
+EQUIVALENCE_PATHS = MUTATE_EQUIVALENCE_PATHS
 """Random paths per parameter point on which a mutant is compared with the original."""
 
-EQUIVALENCE_REGRESSION_PATHS = 2 * BLOCK
+EQUIVALENCE_REGRESSION_PATHS = MUTATE_EQUIVALENCE_REGRESSION_PATHS
 """Pilot paths of the Longstaff-Schwartz fits in the equivalence runs (mutant and original
 are fitted on the same pilot, so identical exercise values give identical policies)."""
 
@@ -83,7 +96,7 @@ class Equivalence:
 
     def to_dict(self) -> dict:
         return {"equivalent": self.equivalent, "edge_only": self.edge_only,
-                "points": [_json_safe(asdict(p)) for p in self.points]}
+                "points": [json_safe(asdict(p)) for p in self.points]}
 
 
 @dataclass(frozen=True)

@@ -20,7 +20,18 @@ from typing import Any, Iterator, Sequence
 
 from ..errors import InputError
 from ..product import Product
-from .operators import Context, OPERATORS, _is_self_attr
+from .operators import Context, OPERATORS, is_self_attr
+
+__all__ = [
+    "Discarded",
+    "Mutant",
+    "Mutation",
+    "Scoped",
+    "build_mutant_class",
+    "function_mutations",
+    "make_mutants",
+    "payoff_scope",
+]
 
 ROOTS = ("payoff", "exercise_value", "dates", "exercise_dates")
 """The methods whose code (and the helpers they reach) is mutated."""
@@ -148,7 +159,7 @@ def _diff(lines: list[str], new_lines: list[str], first: int, last: int, filenam
 def _self_params(node: ast.AST, ctx: Context) -> tuple[str, ...]:
     found: list[str] = []
     for n in ast.walk(node):
-        if _is_self_attr(n, ctx, ctx.params) and n.attr not in found:  # type: ignore[union-attr]
+        if is_self_attr(n, ctx, ctx.params) and n.attr not in found:  # type: ignore[union-attr]
             found.append(n.attr)  # type: ignore[union-attr]
     return tuple(found)
 

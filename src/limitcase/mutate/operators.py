@@ -14,6 +14,8 @@ import numpy as np
 
 from ..product import Observed
 
+__all__ = ["OPERATORS", "Context", "Operator", "is_self_attr"]
+
 # ----------------------------------------------------------------------------------------
 # operators
 
@@ -68,7 +70,7 @@ def _int_node(k: int) -> ast.expr:
     return ast.Constant(k) if k >= 0 else ast.UnaryOp(ast.USub(), ast.Constant(-k))
 
 
-def _is_self_attr(node: ast.AST, ctx: Context, names: Iterable[str] | None = None) -> bool:
+def is_self_attr(node: ast.AST, ctx: Context, names: Iterable[str] | None = None) -> bool:
     return (isinstance(node, ast.Attribute) and isinstance(node.value, ast.Name) and ctx.self_name is not None
             and node.value.id == ctx.self_name and (names is None or node.attr in names))
 
@@ -111,7 +113,7 @@ _MAX_MIN = {
 
 
 def _max_min(node: ast.AST, parent: ast.AST | None, ctx: Context) -> list[tuple[ast.AST, str]]:
-    if isinstance(node, ast.Attribute) and node.attr in _MAX_MIN and not _is_self_attr(node, ctx):
+    if isinstance(node, ast.Attribute) and node.attr in _MAX_MIN and not is_self_attr(node, ctx):
         new = copy.deepcopy(node)
         new.attr = _MAX_MIN[node.attr]
         return [(new, f"`.{node.attr}` -> `.{new.attr}`")]
@@ -271,7 +273,7 @@ def _strike_spot(node: ast.AST, parent: ast.AST | None, ctx: Context) -> list[tu
     obs = sorted(ctx.obs_names)
     if not obs:
         return []
-    if _is_self_attr(node, ctx, ctx.strike_params) and isinstance(node.ctx, ast.Load):
+    if is_self_attr(node, ctx, ctx.strike_params) and isinstance(node.ctx, ast.Load):
         new = ast.Attribute(ast.Name(obs[0], ast.Load()), "s0", ast.Load())
         return [(new, f"strike `{ast.unparse(node)}` -> spot `{ast.unparse(new)}`")]
     if _is_obs_attr(node, ctx, "s0") and ctx.strike_params and ctx.self_name:

@@ -17,6 +17,7 @@ import numpy as np
 from ..errors import ParamError
 from ..product import Product
 from ..reduce import checks_for
+from ..settings import MUTATE_QUICK_PATHS
 from ..suite import DEFAULT_ALPHA, DEFAULT_PATHS, DEFAULT_SEED, run_check
 from ..verdict import Outcome, finalise
 from ..workers import Lost, open_pool
@@ -24,10 +25,12 @@ from .advice import suggest, suggest_hidden
 from .equivalence import EQUIVALENCE_PATHS, Equivalence, PointDifference, equivalence, probe_difference
 from .mutants import Discarded, Mutant, make_mutants
 from .operators import OPERATORS
-from .encoding import _json_safe
+from .encoding import json_safe
 from .scores import MutantResult, MutationReport, ProductScore, family_of, product_scores
 
-QUICK_PATHS = 10_000
+__all__ = ["QUICK_PATHS", "mutation_scores", "run_mutation"]
+
+QUICK_PATHS = MUTATE_QUICK_PATHS
 """Paths per check in the first pass; survivors run again with the full budget."""
 
 TIME_LIMIT_FLOOR = 60.0
@@ -390,7 +393,7 @@ def run_mutation(
             message=r["message"], suggestion=suggestion,
             edge_only=bool(eq is not None and eq.edge_only and status == "survived"),
             params_involved=mu.params_involved, equivalence=eq.to_dict() if eq is not None else None,
-            off_checks=_json_safe(asdict(off)) if off is not None else None,
+            off_checks=json_safe(asdict(off)) if off is not None else None,
         ))
     originals: dict[str, list[dict]] = {}
     run_wide = finalise([o for i in range(len(product_list)) for o in baselines[(i, paths)]], alpha)

@@ -13,8 +13,20 @@ from pathlib import Path
 from typing import Any, Sequence
 
 from ..errors import InputError
-from .encoding import _json_safe
+from .encoding import json_safe
 from .mutants import Discarded
+
+__all__ = [
+    "MutantResult",
+    "MutationReport",
+    "ProductScore",
+    "family_of",
+    "product_scores",
+    "score_of",
+    "scores_from_json",
+    "check_rate_of",
+    "DETECTED",
+]
 
 FORMAT_VERSION = 1
 
@@ -63,7 +75,7 @@ class MutantResult:
         d = asdict(self)
         d["detected_by"] = list(self.detected_by)
         d["params_involved"] = list(self.params_involved)
-        return _json_safe(d)
+        return json_safe(d)
 
 
 @dataclass(frozen=True)
@@ -180,7 +192,7 @@ class MutationReport:
     def to_dict(self) -> dict:
         """The JSON document of ``limitcase mutate --json``."""
         c = self.counts()
-        return _json_safe({
+        return json_safe({
             "tool": "limitcase",
             "format": FORMAT_VERSION,
             "command": "mutate",
