@@ -175,6 +175,42 @@ def test_every_declaration_option_is_documented(cls: type) -> None:
     assert not missing, f"{cls.__name__} options not documented in its section of {PRODUCT_DOC.name}: {missing}"
 
 
+def signature_text(obj, name: str) -> str:
+    """``name(a, b, *, c=1, d='')``: the call signature with its defaults as ``repr`` gives
+    them (a dataclass field's default factory called), the form the docs quote."""
+    facts = {f.name: f for f in dataclasses.fields(obj)} if dataclasses.is_dataclass(obj) else {}
+    parts: list[str] = []
+    star = False
+    for p in inspect.signature(obj).parameters.values():
+        if p.kind is p.KEYWORD_ONLY and not star:
+            parts.append("*")
+            star = True
+        if p.kind is p.VAR_KEYWORD:
+            parts.append(f"**{p.name}")
+        elif p.default is p.empty:
+            parts.append(p.name)
+        else:
+            f = facts.get(p.name)
+            default = f.default_factory() if f is not None and f.default_factory is not dataclasses.MISSING else p.default
+            parts.append(f"{p.name}={default!r}")
+    return f"{name}({', '.join(parts)})"
+
+
+@pytest.mark.parametrize("cls", [Reduction, Identity, Monotone, Convex, Bound, Param], ids=lambda c: c.__name__)
+def test_declaration_signatures_and_defaults_are_quoted_exactly(cls: type) -> None:
+    """A changed default (or a new option) shows here: the docs quote each signature."""
+    heading = "(`Param`)" if cls is Param else f"`{cls.__name__}`"
+    expected = signature_text(cls, cls.__name__)
+    assert f"`{expected}`" in section(PRODUCT_DOC, heading), f"{PRODUCT_DOC.name} should quote `{expected}`"
+
+
+def test_testing_helper_signatures_are_quoted_exactly() -> None:
+    text = section(PRODUCT_DOC, "Testing helpers")
+    for name in lt.__all__:
+        expected = signature_text(getattr(lt, name), name)
+        assert f"`{expected}`" in text, f"{PRODUCT_DOC.name} should quote `{expected}` (defaults changed?)"
+
+
 def observed_fields() -> set[str]:
     """The public fields a payoff can read on ``obs``."""
     names = {n for n in Observed.__slots__ if not n.startswith("_")}
