@@ -35,6 +35,7 @@ TERMINAL_KINDS = tuple(k for k in FOURIER_KINDS if k != "forward")
 ``cash_call`` (1 if S(T) > K), ``cash_put``, ``asset_call`` (S(T) if S(T) > K), ``asset_put``."""
 
 BLACK_SCHOLES = "Black-Scholes"
+SURFACE = "the model's own European prices (implied surface)"
 
 
 def _states_charfn(model: Model) -> bool:
@@ -58,11 +59,14 @@ def terminal_method(model: Model, product: object) -> str:
         raise NoReference(
             f"{name} is priced on one asset; {type(model).__name__} has {model.n_assets}"
         )
+    if callable(getattr(model, "european_price", None)):
+        return SURFACE
     if not _states_charfn(model):
         raise NoReference(
             f"{name} has a reference under BlackScholes (closed form) or under a model that states "
             f"the characteristic function of its log-price (Fourier); {type(model).__name__} has "
-            f"neither: define characteristic_function(u, t) = E[exp(i u log S_t)] on the model"
+            f"neither: define characteristic_function(u, t) = E[exp(i u log S_t)] on the model "
+            f"(or european_price(kind, strike, maturity), a trusted price from its parameters)"
         )
     return FOURIER_METHOD
 
@@ -72,8 +76,9 @@ def terminal_price(model: Model, kind: str, strike: float, maturity: float, prod
     digitals pay 1) from the contract's terms and the model's parameters.
 
     Black-Scholes closed forms (Black and Scholes 1973; Rubinstein and Reiner 1991) under
-    :class:`BlackScholes`; under any other one-asset model that states its characteristic
-    function, :func:`limitcase.references.fourier.fourier_price` (Lewis 2001), with the
+    :class:`BlackScholes`; under a model that states ``european_price(kind, strike,
+    maturity)`` (a local-volatility model reads its implied surface), that price; under any
+    other one-asset model that states its characteristic function, :func:`limitcase.references.fourier.fourier_price` (Lewis 2001), with the
     model's forward ``S0 exp((r - q) T)`` checked against the characteristic function's;
     otherwise NoReference naming the product, the model and the fix.
     """
@@ -87,6 +92,8 @@ def terminal_price(model: Model, kind: str, strike: float, maturity: float, prod
         if kind.startswith("cash"):
             return float(cash_or_nothing(spot, strike, maturity, rate, dividend, vol, 1.0, kind[5:]))
         return float(asset_or_nothing(spot, strike, maturity, rate, dividend, vol, kind[6:]))
+    if method == SURFACE:
+        return float(model.european_price(kind, strike, maturity))  # type: ignore[attr-defined]
     forward = float(model.forward([maturity])[0, 0])
     return float(fourier_price(model.characteristic_function, strike, maturity, model.short_rate, kind,
                                forward=forward))
@@ -97,8 +104,11 @@ def terminal_source(model: Model | None, what: str, closed_form: str) -> str:
     Black-Scholes, ``what`` by the Fourier method otherwise; without a model, both."""
     if model is not None:
         try:
-            if terminal_method(model, None) == FOURIER_METHOD:
+            method = terminal_method(model, None)
+            if method == FOURIER_METHOD:
                 return f"{what} by {FOURIER_METHOD}"
+            if method == SURFACE:
+                return f"{what} from {SURFACE}"
         except NoReference:
             pass
         return closed_form

@@ -255,6 +255,13 @@ class VarianceSurface:
             return self.slices[i].w(k) * (t / self.expiries[i])
         return (1 - x) * self.slices[i].w(k) + x * self.slices[j].w(k)
 
+    def slope(self, k: np.ndarray, t: float) -> np.ndarray:
+        """``dw/dk (k, t)``, the skew of total variance, interpolated like :meth:`total_variance`."""
+        i, j, x = self._bracket(t)
+        if i == j:
+            return self.slices[i].dw(k) * (t / self.expiries[i])
+        return (1 - x) * self.slices[i].dw(k) + x * self.slices[j].dw(k)
+
     def implied_vol(self, strike: np.ndarray | float, t: float) -> np.ndarray:
         k = np.log(np.asarray(strike, dtype=float) / float(self.forward(t)))
         return np.sqrt(self.total_variance(k, t) / t)

@@ -268,3 +268,33 @@ def test_bad_dividend_schedules_are_refused():
         DividendSchedule(times=(0.5,), proportional=(1.0,))
     with pytest.raises(ParamError, match="worth at least the spot"):
         LocalVol(dividends=DividendSchedule(times=(0.5,), cash=(150.0,)))
+
+
+# ---------------------------------------------------------------------------------------
+# European prices read off the surface
+
+
+@pytest.mark.parametrize("divs", [DividendSchedule(), DividendSchedule(times=(0.3, 0.7), cash=(2.0, 1.0),
+                                                                      proportional=(0.0, 0.01))],
+                         ids=["no_dividends", "dividends"])
+def test_european_prices_from_the_surface_hold_their_identities(divs):
+    """Put-call parity, digitals as strike derivatives of the calls (central differences),
+    asset digital = call + K cash digital, and without dividends the call is Black-Scholes
+    at the surface's implied volatility (scipy-free closed form from references)."""
+    m = LocalVol(surface=skew_surface(), dividends=divs, spot=SPOT, rate=RATE, dividend=DIV)
+    t = 0.8
+    fwd = float(m.forward([t])[0, 0])
+    disc = math.exp(-RATE * t)
+    for k in (70.0, 90.0, 100.0, 112.0, 140.0):
+        c, p = m.european_price("call", k, t), m.european_price("put", k, t)
+        assert c - p == pytest.approx(disc * (fwd - k), abs=1e-10)
+        h = 1e-4 * k
+        dig = -(m.european_price("call", k + h, t) - m.european_price("call", k - h, t)) / (2 * h)
+        assert m.european_price("cash_call", k, t) == pytest.approx(dig, rel=1e-6)
+        assert m.european_price("cash_call", k, t) + m.european_price("cash_put", k, t) == pytest.approx(disc)
+        assert m.european_price("asset_call", k, t) == pytest.approx(c + k * m.european_price("cash_call", k, t),
+                                                                      rel=1e-12)
+        assert m.european_price("asset_call", k, t) + m.european_price("asset_put", k, t) == pytest.approx(disc * fwd)
+        if not divs:
+            vol = float(skew_surface().implied_vol(k, t))
+            assert c == pytest.approx(black_scholes(SPOT, k, t, RATE, DIV, vol, "call"), rel=1e-12)

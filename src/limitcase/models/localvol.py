@@ -42,11 +42,11 @@ more than the stock.
 from __future__ import annotations
 
 import math
+from dataclasses import dataclass
 from typing import Any, ClassVar
 
 import numpy as np
-
-from dataclasses import dataclass
+from scipy.special import ndtr
 
 from ..errors import ParamError
 from ..params import Param
@@ -234,6 +234,53 @@ class LocalVol(Model):
                 out[:, j, 0] = np.exp(x + math.log(fwd[j]))
             var[:, j, 0] = acc
         return Simulated(s=out, step_var=var)
+
+    EUROPEAN_KINDS: ClassVar[tuple[str, ...]] = ("call", "put", "cash_call", "cash_put", "asset_call", "asset_put")
+
+    def european_price(self, kind: str, strike: float, maturity: float) -> float:
+        """Today's price of a European payoff of ``S(T)`` read off the implied surface, from
+        the model's parameters alone (not its simulation): Dupire's construction makes the
+        model's European prices the surface's, in the limit of small steps.
+
+        With ``S(T) = A X(T) + D`` (``A = F(T) - D(T)``, ``D = D(T)``; no dividends: ``A = F``,
+        ``D = 0``) and ``X`` log-normal-like with total variance ``w(k)`` at ``k = log kappa``,
+        ``kappa = (K - D) / A``: the call is ``A c(kappa)``, ``c = N(d1) - kappa N(d2)`` (Black 1976
+        on a forward of 1), the cash digital ``N(d2) - n(d2) w'(k) / (2 sqrt w)`` (the call's
+        strike derivative with the skew term), the asset digital ``A (c + kappa N_dig) + D N_dig``;
+        puts by parity (``E[X] = 1``). Discounted at the flat rate. ``kind`` is one of
+        :attr:`EUROPEAN_KINDS` (cash digitals pay 1)."""
+        if kind not in self.EUROPEAN_KINDS:
+            raise ParamError(f"LocalVol.european_price: kind={kind!r} is not one of {self.EUROPEAN_KINDS}")
+        t = float(maturity)
+        if not t > 0:
+            raise ParamError(f"LocalVol.european_price: maturity={maturity!r} must be > 0")
+        g = self.rate - self.dividend
+        fwd = float(self.forward([t])[0, 0])
+        d = float(self.dividends.pending(np.array([t]), g)[0]) if self.dividends else 0.0
+        a = fwd - d
+        disc = math.exp(-self.rate * t)
+        kappa = (float(strike) - d) / a
+        if kappa <= 0.0:  # the strike is below every reachable price
+            call, dig = 1.0 - kappa, 1.0
+        else:
+            k = math.log(kappa)
+            w = float(self.surface.total_variance(np.array(k), t))
+            sw = math.sqrt(w)
+            d1 = -k / sw + 0.5 * sw
+            d2 = d1 - sw
+            call = float(ndtr(d1) - kappa * ndtr(d2))
+            skew = float(self.surface.slope(np.array(k), t))
+            dig = float(ndtr(d2) - math.exp(-0.5 * d2 * d2) / math.sqrt(2 * math.pi) * skew / (2 * sw))
+        asset = call + kappa * dig  # E[X 1{X > kappa}]
+        values = {
+            "call": a * call,
+            "put": a * (call - (1.0 - kappa)),
+            "cash_call": dig,
+            "cash_put": 1.0 - dig,
+            "asset_call": a * asset + d * dig,
+            "asset_put": a * (1.0 - asset) + d * (1.0 - dig),
+        }
+        return disc * values[kind]
 
     def forward(self, t: Any) -> np.ndarray:
         """Forward prices, the discrete dividends included, shape ``(len(t), 1)``."""
