@@ -1,6 +1,7 @@
 """``limitcase audit [MODEL]...``: the engine's own checks, model by model.
 
-Thin: parses, calls :func:`limitcase.audits.run_audits`, renders. Exit status as ``check``:
+Thin: parses, calls :func:`limitcase.audits.run_audits`, renders with
+:mod:`limitcase.report.audit` (the table and the legend of its non-price rows). Exit status as ``check``:
 0 when every audit passes, 1 when any fails or errors, 2 for bad input (an unknown model).
 """
 
@@ -38,6 +39,7 @@ def command(model_names: tuple[str, ...], paths: int, seed: int, alpha: float, j
     convergence and the model's degenerate cases."""
     from ..audits import AUDITS, default_models, run_audits
     from ..report import render_summary, render_table
+    from ..report.audit import render_audit_legend
 
     known = default_models()
     by_lower = {k.lower(): k for k in known}
@@ -58,6 +60,9 @@ def command(model_names: tuple[str, ...], paths: int, seed: int, alpha: float, j
     if not result.outcomes:
         raise InputFailure("no audit outcomes" + (" match --select" if selects else ""))
     click.echo(render_table(result.outcomes))
+    legend = render_audit_legend(result.outcomes)
+    if legend:
+        click.echo(legend)
     click.echo("")
     reproduce = f"limitcase audit {' '.join(model_names)}".rstrip()
     click.echo(render_summary(result, reproduce=reproduce))
