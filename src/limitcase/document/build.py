@@ -102,7 +102,8 @@ def _recognition_record(product: Product, red: Any) -> RecognitionRecord:
     return RecognitionRecord(rec.status, rec.message, rec.base, ll, lt, bl, bt)
 
 
-def _audit_outcomes(models: dict[str, Any], paths: int, seed: int, alpha: float) -> tuple[dict[str, list[Outcome]], str]:
+def _audit_outcomes(models: dict[str, Any], paths: int, seed: int, alpha: float,
+                    tick: Callable[[], None] = lambda: None) -> tuple[dict[str, list[Outcome]], str]:
     """The engine audits of each distinct scenario model, Holm over all their outcomes
     (one family of its own, as ``limitcase.audits.run_audits`` forms it); keyed by the
     model's label. Empty, with a note, when the audits module is not there."""
@@ -118,6 +119,7 @@ def _audit_outcomes(models: dict[str, Any], paths: int, seed: int, alpha: float)
         outs = audit_module.audit_model(model, paths=paths, seed=seed, alpha=alpha)
         per[label] = outs
         flat.extend(outs)
+        tick()
     final = iter(finalise(flat, alpha))
     per = {label: [next(final) for _ in outs] for label, outs in per.items()}
     n = len(flat)
@@ -217,7 +219,12 @@ def build_dossier(
         pages.append(page)
 
     built = [p for p in instances if p is not None]
-    total = len(all_checks) + sum(len(type(p).reductions) + 2 for p in built) + (1 if audits else 0)
+    models: dict[str, Any] = {}
+    if audits:
+        for p in built:
+            m = p.scenario()
+            models.setdefault(m.label(), m)
+    total = len(all_checks) + sum(len(type(p).reductions) + 2 for p in built) + len(models)
     done = [0]
 
     def report(n: int) -> None:
@@ -237,17 +244,13 @@ def build_dossier(
     audit_note = ""
     per: dict[str, list[Outcome]] = {}
     if audits:
-        models: dict[str, Any] = {}
-        for p in built:
-            m = p.scenario()
-            models.setdefault(m.label(), m)
         from ..suite import DEFAULT_PATHS
 
-        per, audit_note = _audit_outcomes(models, audit_paths or DEFAULT_PATHS, seed, alpha)
+        per, audit_note = _audit_outcomes(models, audit_paths or DEFAULT_PATHS, seed, alpha,
+                                          tick=lambda: report(done[0] + 1))
         for page, p in zip(pages, instances):
             if p is not None:
                 page.audits = per.get(p.scenario().label(), [])
-        report(done[0] + 1)
     settings = {
         "paths": paths, "seed": seed, "alpha": alpha, "points": points, "method": method,
         "regression_paths": regression_paths, "sources": list(sources),
