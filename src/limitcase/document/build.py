@@ -11,8 +11,9 @@ from __future__ import annotations
 import json
 import re
 import time
+from dataclasses import dataclass, field
 from pathlib import Path
-from typing import Any, Callable, Sequence
+from typing import Any, Callable, Iterator, Sequence
 
 from ..engine import DEFAULT_REGRESSION_PATHS
 from ..errors import InputError
@@ -102,21 +103,21 @@ def _recognition_record(product: Product, red: Any) -> RecognitionRecord:
     return RecognitionRecord(rec.status, rec.message, rec.base, ll, lt, bl, bt)
 
 
-def _audit_outcomes(models: dict[str, Any], paths: int, seed: int, alpha: float,
+def _audit_outcomes(models: dict[str, Any], paths: int, seed: int, alpha: float, workers: int = 1,
                     tick: Callable[[], None] = lambda: None) -> tuple[dict[str, list[Outcome]], str]:
     """The engine audits of each distinct scenario model, Holm over all their outcomes
     (one family of its own, as ``limitcase.audits.run_audits`` forms it); keyed by the
     model's label. Empty, with a note, when the audits module is not there."""
     try:
-        from .. import audits as audit_module
+        from .. import audits as audit_module  # noqa: F401
     except ImportError:
         return {}, "the audits module is not installed; no engine audits were run"
     from ..verdict import finalise
 
     per: dict[str, list[Outcome]] = {}
     flat: list[Outcome] = []
-    for label, model in models.items():
-        outs = audit_module.audit_model(model, paths=paths, seed=seed, alpha=alpha)
+    jobs = [(model, paths, seed, alpha) for model in models.values()]
+    for label, outs in zip(models, _spread(_audit_task, jobs, workers)):
         per[label] = outs
         flat.extend(outs)
         tick()
@@ -127,40 +128,80 @@ def _audit_outcomes(models: dict[str, Any], paths: int, seed: int, alpha: float,
                  f"outcomes at {alpha:g}, a family of its own")
 
 
-def _fill_page(page: ProductPage, product: Product, outs: Sequence[Outcome], *, paths: int, seed: int, points: int,
-               regression_paths: int, tick: Callable[[], None]) -> None:
-    """Everything a product's page shows besides its checks' outcomes and the audits."""
+@dataclass
+class _Work:
+    """What one product's page needs besides its checks' outcomes (computed in a worker)."""
+
+    formula: FormulaRecord | None = None
+    limits: list[LimitRecord] = field(default_factory=list)
+    convergence: ConvergenceSeries | None = None
+    steps: StepSeries | None = None
+    errors: list[str] = field(default_factory=list)
+
+
+def _page_work(product: Product, paths: int, seed: int, points: int, regression_paths: int) -> _Work:
+    """A product's formula and its cross-check, a sweep toward each limit with the symbolic
+    recognition, its convergence in paths and in the time step."""
     cls = type(product)
-    by_case = {o.case: o for o in outs if o.kind == "reduction"}
-    page.relations = [o for o in outs if o.kind == "relation"]
-    page.other = [o for o in outs if o.kind not in ("relation", "reduction")]
+    work = _Work()
     try:
         has_formula = product.formula() is not None
     except Exception as exc:
-        page.errors.append(f"{cls.__name__}.formula() raised {type(exc).__name__}: {exc}")
+        work.errors.append(f"{cls.__name__}.formula() raised {type(exc).__name__}: {exc}")
         has_formula = False
     if has_formula:
-        page.formula = _formula_record(product, seed)
+        work.formula = _formula_record(product, seed)
     for red in cls.reductions:
-        lim = LimitRecord(red.name, red.note, by_case.get(red.name))
+        lim = LimitRecord(red.name, red.note, None)
         lim.sweep = _sweep_record(product, red, paths=paths, seed=seed, points=points,
                                   regression_paths=regression_paths)
         if has_formula:
             lim.recognition = _recognition_record(product, red)
-        page.limits.append(lim)
-        tick()
+        work.limits.append(lim)
     conv = convergence(product, paths=paths, seed=seed, regression_paths=regression_paths)
-    page.convergence = ConvergenceSeries(conv.product.label(), _points(conv.estimates), conv.error)
+    work.convergence = ConvergenceSeries(conv.product.label(), _points(conv.estimates), conv.error)
     if conv.error:
-        page.errors.append(f"convergence run: {conv.error}")
-    tick()
+        work.errors.append(f"convergence run: {conv.error}")
     st = step_sweep(product, paths=paths, seed=seed, regression_paths=regression_paths)
     if st is not None:
-        page.steps = StepSeries(st.product.label(), st.param, tuple(int(v) for v in st.values),
+        work.steps = StepSeries(st.product.label(), st.param, tuple(int(v) for v in st.values),
                                 _points(st.estimates), st.error)
         if st.error:
-            page.errors.append(f"time-step run: {st.error}")
-    tick()
+            work.errors.append(f"time-step run: {st.error}")
+    return work
+
+
+# Work spread over worker processes. The jobs reach the workers by fork (a registry they
+# inherit), not by pickling: a user's product classes need not be importable by name.
+_JOBS: dict[int, Sequence[Any]] = {}
+
+
+def _page_task(args: tuple[int, int]) -> _Work:
+    job, k = args
+    return _page_work(*_JOBS[job][k])
+
+
+def _audit_task(args: tuple[int, int]) -> list[Outcome]:
+    from .. import audits as audit_module
+
+    job, k = args
+    model, paths, seed, alpha = _JOBS[job][k]
+    return audit_module.audit_model(model, paths=paths, seed=seed, alpha=alpha)
+
+
+def _spread(task: Callable[[tuple[int, int]], Any], jobs: Sequence[Any], workers: int) -> Iterator[Any]:
+    """``task`` of each job, in order, on up to ``workers`` processes (the suite's pool, with
+    its one-process fallback); each result as soon as it and those before it are in."""
+    from ..suite import _executor  # the run's process pool (to move with it to limitcase.workers)
+
+    key = id(jobs)
+    _JOBS[key] = jobs
+    ex = _executor(workers, len(jobs))
+    try:
+        yield from ex.map(task, [(key, k) for k in range(len(jobs))])
+    finally:
+        ex.close()
+        _JOBS.pop(key, None)
 
 
 def build_dossier(
@@ -236,17 +277,26 @@ def build_dossier(
                         progress=lambda i, n: report(i), method=method, workers=workers)
     report(len(all_checks))
 
-    for page, product, (a, b) in zip(pages, instances, spans):
-        if product is not None:
-            _fill_page(page, product, result.outcomes[a:b], paths=paths, seed=seed, points=points,
-                       regression_paths=regression_paths, tick=lambda: report(done[0] + 1))
+    jobs = [(p, paths, seed, points, regression_paths) for p in built]
+    placed = [(page, span) for page, product, span in zip(pages, instances, spans) if product is not None]
+    for (page, (a, b)), work in zip(placed, _spread(_page_task, jobs, workers)):
+        outs = result.outcomes[a:b]
+        by_case = {o.case: o for o in outs if o.kind == "reduction"}
+        page.relations = [o for o in outs if o.kind == "relation"]
+        page.other = [o for o in outs if o.kind not in ("relation", "reduction")]
+        page.formula, page.convergence, page.steps = work.formula, work.convergence, work.steps
+        for lim in work.limits:
+            lim.outcome = by_case.get(lim.name)
+        page.limits = work.limits
+        page.errors.extend(work.errors)
+        report(done[0] + len(work.limits) + 2)
 
     audit_note = ""
     per: dict[str, list[Outcome]] = {}
     if audits:
         from ..suite import DEFAULT_PATHS
 
-        per, audit_note = _audit_outcomes(models, audit_paths or DEFAULT_PATHS, seed, alpha,
+        per, audit_note = _audit_outcomes(models, audit_paths or DEFAULT_PATHS, seed, alpha, workers,
                                           tick=lambda: report(done[0] + 1))
         for page, p in zip(pages, instances):
             if p is not None:
