@@ -36,7 +36,8 @@ from ..suite import DEFAULT_ALPHA, DEFAULT_SEED
               help="Variance reduction of the checks, as `limitcase check --method` (sweeps and "
                    "convergence pictures use plain Monte Carlo).")
 @click.option("--workers", type=click.IntRange(min=1), default=None,
-              help="Worker processes for the checks (default: all cores). The numbers do not depend on it.")
+              help="Worker processes for the checks, sweeps, convergence runs, audits and pictures (default: all "
+                   "cores). The numbers do not depend on it.")
 @click.option("--no-audits", is_flag=True, help="Do not run the engine audits of the scenario models.")
 @click.option("--audit-paths", type=click.IntRange(min=1000), default=None,
               help="Paths of each engine audit (default 100000, as limitcase.audits uses).")
@@ -61,11 +62,13 @@ def command(paths_in: tuple[str, ...], outdir: str, paths: int, seed: int, alpha
     sweep toward each declared limit with the base value, relations, audits and
     convergence pictures. Exit 0 when every case passes, 1 otherwise."""
     from ..document import build_dossier, load_mutations
+    from ..document.build import parallel_map
     from ..engine import DEFAULT_REGRESSION_PATHS
     from ..loader import load_products
     from ..report.dossier import write_dossier
     from ..suite import default_workers
 
+    workers = workers or default_workers()
     if min_score is not None and not mutations_path:
         raise InputFailure("--min-score judges the scores of a mutation run: give it with --mutations FILE")
     mutations = load_mutations(mutations_path, min_score) if mutations_path else None
@@ -83,7 +86,7 @@ def command(paths_in: tuple[str, ...], outdir: str, paths: int, seed: int, alpha
             products, paths=paths, seed=seed, alpha=alpha, points=points,
             regression_paths=regression_paths or DEFAULT_REGRESSION_PATHS, selects=selects,
             sources=list(paths_in), audits=not no_audits, audit_paths=audit_paths, method=method,
-            workers=workers or default_workers(),
+            workers=workers,
             progress=on_progress,
         )
     finally:
@@ -91,7 +94,8 @@ def command(paths_in: tuple[str, ...], outdir: str, paths: int, seed: int, alpha
     dossier.mutations = mutations
     drawing = Progress("report: pages and pictures", len(dossier.pages))
     try:
-        written = write_dossier(dossier, outdir, progress=drawing)
+        written = write_dossier(dossier, outdir, progress=drawing,
+                                mapper=lambda fn, items: parallel_map(fn, items, workers))
     finally:
         drawing.close()
     s = dossier.result.summary

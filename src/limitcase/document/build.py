@@ -28,7 +28,7 @@ from .records import (
     RecognitionRecord, StepSeries, SweepSeries,
 )
 
-__all__ = ["REPORT_PATHS", "build_dossier", "load_mutations"]
+__all__ = ["REPORT_PATHS", "build_dossier", "load_mutations", "parallel_map"]
 
 REPORT_PATHS = 16_384
 """Default paths of a report (a power of two, as Sobol points want): clear pictures, and the
@@ -187,6 +187,18 @@ def _audit_task(args: tuple[int, int]) -> list[Outcome]:
     job, k = args
     model, paths, seed, alpha = _JOBS[job][k]
     return audit_module.audit_model(model, paths=paths, seed=seed, alpha=alpha)
+
+
+def parallel_map(fn: Callable[[Any], Any], items: Sequence[Any], workers: int) -> Iterator[Any]:
+    """``fn`` of each item, in order, on up to ``workers`` processes (``fn`` and the items
+    are pickled): how a command spreads the drawing of a dossier's pictures."""
+    from ..suite import _executor  # the run's process pool (to move with it to limitcase.workers)
+
+    ex = _executor(workers, len(items))
+    try:
+        yield from ex.map(fn, list(items))
+    finally:
+        ex.close()
 
 
 def _spread(task: Callable[[tuple[int, int]], Any], jobs: Sequence[Any], workers: int) -> Iterator[Any]:

@@ -486,11 +486,15 @@ def _ours(name: str) -> bool:
             and (len(p.parts) == 1 or (len(p.parts) == 2 and p.parts[0] == "img")))
 
 
-def write_dossier(d: "Dossier", outdir: str | Path, progress: Callable[[int, int], None] | None = None) -> list[Path]:
+def write_dossier(d: "Dossier", outdir: str | Path, progress: Callable[[int, int], None] | None = None,
+                  mapper: Callable[[Callable[[Any], Any], list[Any]], Any] | None = None) -> list[Path]:
     """Write ``index.html``, ``index.md``, a page and a Markdown twin per product, and the
     pictures under ``img/``; each file atomically. Files a previous run listed in the
     folder's manifest and this run did not write are removed (and only those). Returns the
-    paths written."""
+    paths written.
+
+    ``mapper(fn, items)`` (default: the built-in ``map``) draws the pages' pictures; give
+    one that spreads the work over processes (results in order) to draw them in parallel."""
     from .dossier_md import index_md, product_md
 
     out = Path(outdir)
@@ -512,8 +516,10 @@ def write_dossier(d: "Dossier", outdir: str | Path, progress: Callable[[int, int
         names.append(name)
         return name
 
-    for i, page in enumerate(d.pages):
-        pics = render_pictures(page)
+    from . import plots  # noqa: F401  (imported once here, before any worker process is forked)
+
+    drawn = (mapper or map)(render_pictures, list(d.pages))
+    for i, (page, pics) in enumerate(zip(d.pages, drawn)):
         images: dict[str, str] = {}
         if "formula" in pics:
             images["formula"] = put(f"img/{page.slug}-formula.png", pics["formula"])
