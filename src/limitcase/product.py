@@ -168,8 +168,10 @@ class Product(Parametrised):
         """A trusted price of this product under ``model`` (closed form or numerical)."""
         raise NoReference(f"{type(self).__name__} has no reference price")
 
-    def reference_source(self) -> str:
-        """Where :meth:`reference` comes from, for the report (override with the formula's name)."""
+    def reference_source(self, model: "Model | None" = None) -> str:
+        """Where :meth:`reference` comes from, for the report (override with the formula's
+        name); given the ``model``, the method used under it (a closed form or the Fourier
+        price from the model's characteristic function)."""
         return f"{type(self).__name__}.reference"
 
     def control_variates(self, model: "Model") -> tuple[tuple["Product", float], ...]:

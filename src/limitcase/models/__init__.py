@@ -4,6 +4,7 @@ from .base import Degeneration, Model, Simulated
 from .gbm import BlackScholes, MultiBlackScholes
 from .heston import HESTON_SCHEMES, Heston
 from .merton import Merton
+from .localvol import LocalVol
 
 __all__ = [
     "Model",
@@ -14,4 +15,5 @@ __all__ = [
     "Heston",
     "HESTON_SCHEMES",
     "Merton",
+    "LocalVol",
 ]
