@@ -60,6 +60,7 @@ from .models.base import Model
 from .params import Param
 from .product import Product
 from .reduce import Check, Reduction, reduction_check
+from .settings import REPORT_POINTS
 
 __all__ = [
     "LEVEL_RATIO",
@@ -81,8 +82,8 @@ __all__ = [
 LEVEL_RATIO = 4.0
 """A parameter whose default is within this factor of the spot is treated as a price level."""
 
-DEFAULT_POINTS = 7
-"""Finite sweep points before the limit (the limit itself is added)."""
+DEFAULT_POINTS = REPORT_POINTS
+"""Finite sweep points before the limit (the limit itself is added): the report's default."""
 
 MAX_SHARED_GRID = 2048
 """Largest union date grid on which a sweep's products are priced together (common random

@@ -10,14 +10,12 @@ import click
 from ..cli_support import (
     EXIT_FAIL, EXIT_OK, InputFailure, Progress, handle_errors, output_dir, output_file, write_outputs,
 )
-from ..document.build import REPORT_PATHS
-from ..sampling import METHODS
-from ..suite import DEFAULT_ALPHA, DEFAULT_SEED
+from ..settings import DEFAULT_ALPHA, DEFAULT_SEED, METHODS, REPORT_OUTPUT, REPORT_PATHS, REPORT_POINTS
 
 
 @click.command("report")
 @click.argument("paths_in", metavar="[PATH]...", nargs=-1, type=click.Path())
-@click.option("-o", "--output", "outdir", type=click.Path(file_okay=False), default="limitcase-report", show_default=True,
+@click.option("-o", "--output", "outdir", type=click.Path(file_okay=False), default=REPORT_OUTPUT, show_default=True,
               callback=output_dir,
               help="Folder to write index.html, one page per product, Markdown twins and img/.")
 @click.option("--paths", type=click.IntRange(min=100), default=REPORT_PATHS, show_default=True,
@@ -26,7 +24,7 @@ from ..suite import DEFAULT_ALPHA, DEFAULT_SEED
               help="Seed of the run; every case draws its own streams from it.")
 @click.option("--alpha", type=click.FloatRange(0.0, 1.0, min_open=True, max_open=True), default=DEFAULT_ALPHA,
               show_default=True, help="Family-wise false-alarm rate of the run (Holm's correction).")
-@click.option("--points", type=click.IntRange(2, 20), default=7, show_default=True,
+@click.option("--points", type=click.IntRange(2, 20), default=REPORT_POINTS, show_default=True,
               help="Sweep points before each limit.")
 @click.option("--select", "selects", multiple=True, metavar="TEXT",
               help="Only the products whose name contains TEXT (repeatable).")
@@ -63,10 +61,9 @@ def command(paths_in: tuple[str, ...], outdir: str, paths: int, seed: int, alpha
     convergence pictures. Exit 0 when every case passes, 1 otherwise."""
     from ..document import build_dossier, load_mutations
     from ..document.build import parallel_map
-    from ..engine import DEFAULT_REGRESSION_PATHS
     from ..loader import load_products
     from ..report.dossier import write_dossier
-    from ..suite import default_workers
+    from ..settings import DEFAULT_REGRESSION_PATHS, default_workers
 
     workers = workers or default_workers()
     if min_score is not None and not mutations_path:

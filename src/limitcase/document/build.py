@@ -15,10 +15,10 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any, Callable, Iterator, Sequence
 
-from ..engine import DEFAULT_REGRESSION_PATHS
 from ..errors import InputError
 from ..product import Product
 from ..reduce import Check, checks_for
+from ..settings import DEFAULT_PATHS, DEFAULT_REGRESSION_PATHS, REPORT_PATHS
 from ..suite import run_checks
 from ..sweep import DEFAULT_POINTS, convergence, run_sweep, step_sweep
 from ..verdict import Outcome
@@ -29,11 +29,6 @@ from .records import (
 )
 
 __all__ = ["REPORT_PATHS", "build_dossier", "load_mutations", "parallel_map"]
-
-REPORT_PATHS = 16_384
-"""Default paths of a report (a power of two, as Sobol points want): clear pictures, and the
-whole catalogue in a minute or two on two cores; ``--paths`` for more."""
-
 
 def load_mutations(path: str | Path, threshold: float | None = None) -> MutationSummary:
     """Read a ``limitcase mutate --json`` file for the dossier (a mutation run takes
@@ -306,8 +301,6 @@ def build_dossier(
     audit_note = ""
     per: dict[str, list[Outcome]] = {}
     if audits:
-        from ..suite import DEFAULT_PATHS
-
         per, audit_note = _audit_outcomes(models, audit_paths or DEFAULT_PATHS, seed, alpha, workers,
                                           tick=lambda: report(done[0] + 1))
         for page, p in zip(pages, instances):

@@ -21,7 +21,7 @@ from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
 if TYPE_CHECKING:  # pragma: no cover
-    from ..suite import RunResult
+    from ..verdict import RunResult
 
 __all__ = ["FORMAT_VERSION", "INFINITY", "jsonable", "dumps", "write_text_atomic", "outcomes_document", "write_json"]
 

@@ -14,7 +14,7 @@ from typing import TYPE_CHECKING
 from .jsonfile import write_text_atomic
 
 if TYPE_CHECKING:  # pragma: no cover
-    from ..suite import RunResult
+    from ..verdict import RunResult
 
 __all__ = ["junit_tree", "write_junit"]
 

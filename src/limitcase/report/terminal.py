@@ -7,7 +7,7 @@ from typing import TYPE_CHECKING, Any, Sequence
 from .numbers import num
 
 if TYPE_CHECKING:  # pragma: no cover
-    from ..suite import RunResult
+    from ..verdict import RunResult
     from ..verdict import Outcome
 
 __all__ = ["render_table", "render_summary", "render_detection", "columns"]
