@@ -184,30 +184,39 @@ def _audit_task(args: tuple[int, int]) -> list[Outcome]:
     return audit_module.audit_model(model, paths=paths, seed=seed, alpha=alpha)
 
 
+def _open_pool(workers: int, tasks: int) -> Any:
+    """The package's one pool of worker processes (:mod:`limitcase.workers`, with its
+    one-process fallback), or ``None`` (run here) where that module is not part of the
+    package: the one place to change when the pool moves."""
+    try:
+        from ..workers import open_pool  # type: ignore[import-not-found]
+    except ImportError:
+        return None
+    return open_pool(workers, tasks)
+
+
 def parallel_map(fn: Callable[[Any], Any], items: Sequence[Any], workers: int) -> Iterator[Any]:
     """``fn`` of each item, in order, on up to ``workers`` processes (``fn`` and the items
     are pickled): how a command spreads the drawing of a dossier's pictures."""
-    from ..suite import _executor  # the run's process pool (to move with it to limitcase.workers)
-
-    ex = _executor(workers, len(items))
+    items = list(items)
+    pool = _open_pool(workers, len(items))
+    if pool is None:
+        yield from map(fn, items)
+        return
     try:
-        yield from ex.map(fn, list(items))
+        yield from pool.map(fn, items)
     finally:
-        ex.close()
+        pool.close()
 
 
 def _spread(task: Callable[[tuple[int, int]], Any], jobs: Sequence[Any], workers: int) -> Iterator[Any]:
-    """``task`` of each job, in order, on up to ``workers`` processes (the suite's pool, with
-    its one-process fallback); each result as soon as it and those before it are in."""
-    from ..suite import _executor  # the run's process pool (to move with it to limitcase.workers)
-
+    """``task`` of each job, in order, on up to ``workers`` processes; each result as soon as
+    it and those before it are in. The jobs are registered before the pool forks."""
     key = id(jobs)
     _JOBS[key] = jobs
-    ex = _executor(workers, len(jobs))
     try:
-        yield from ex.map(task, [(key, k) for k in range(len(jobs))])
+        yield from parallel_map(task, [(key, k) for k in range(len(jobs))], workers)
     finally:
-        ex.close()
         _JOBS.pop(key, None)
 
 

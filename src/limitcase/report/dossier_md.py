@@ -5,7 +5,7 @@ from __future__ import annotations
 
 from typing import TYPE_CHECKING, Any, Sequence
 
-from .dossier import counts, reproduce, score_text, settings_line
+from .dossier_text import counts, reproduce, score_text, settings_line
 from .markup import rest_to_markdown
 from .numbers import num
 
