@@ -29,11 +29,7 @@ def _imported_names() -> dict[str, dict[str, list[str]]]:
     return out
 
 
-_PENDING = {
-    f"{PKG}.references.blackscholes": "references/ lists the helpers its modules share in __all__ (or a helpers module)",
-    f"{PKG}.references.quadrature": "references/ lists the helpers its modules share in __all__ (or a helpers module)",
-    f"{PKG}.report.dossier": "commands/report.py reads REPORT_PATHS from settings; load_mutations in the dossier's __all__",
-}
+_PENDING: dict[str, str] = {}
 
 _USED = _imported_names()
 

@@ -307,8 +307,9 @@ def reprice(
                 z=(d_band / se if se > 0 else None), p_value=min(1.0, 2.0 * min(p_b, p_f)),
                 allowance=half, allowance_reason=f"half-width of the {source} band" if half > 0 else "",
                 sense="==", message=msg, method=joint.method, dof=dof,
-                target_source=f"{source}; formula: " + ("Heston characteristic function (Lewis integral)"
-                                                        if cal.model == "heston" else "Black-Scholes closed form"),
+                target_source=f"{source}; formula: " + {
+                    "heston": "Heston characteristic function (Lewis integral)",
+                    "local-vol": "the SVI surface's own price (Dupire)"}.get(cal.model, "Black-Scholes closed form"),
                 note=f"market {q.price:.6g} (line {q.line} of {qs.path})", **base,
             )
         if progress is not None:
@@ -322,11 +323,12 @@ def reprice(
     extra = _finite({
         "quotes": describe(qs),
         "calibration": cal.summary(),
-        "scheme": scheme if cal.model == "heston" else "exact",
-        "steps_per_year": steps_per_year if cal.model == "heston" else None,
+        "scheme": {"heston": scheme, "local-vol": "log-euler"}.get(cal.model, "exact"),
+        "steps_per_year": steps_per_year if cal.model in ("heston", "local-vol") else None,
         "tolerance_vol_points": tolerance_vol,
         "simulated_models": used_models,
         "table": [r.to_dict() for r in table],
     })
     result = RunResult(final, paths=paths, seed=seed, alpha=alpha, extra=extra)
-    return Repricing(cal, table, result, scheme, steps_per_year, tolerance_vol)
+    shown = {"heston": scheme, "local-vol": "log-euler"}.get(cal.model, "exact")
+    return Repricing(cal, table, result, shown, steps_per_year, tolerance_vol)
