@@ -1,6 +1,7 @@
 """Models of the underlying(s): each declares bounded parameters and simulates on any grid."""
 
 from .base import Degeneration, Model, Simulated
+from .dividends import DividendBlackScholes
 from .gbm import BlackScholes, MultiBlackScholes
 from .heston import HESTON_SCHEMES, Heston
 from .merton import Merton
@@ -14,4 +15,5 @@ __all__ = [
     "Heston",
     "HESTON_SCHEMES",
     "Merton",
+    "DividendBlackScholes",
 ]

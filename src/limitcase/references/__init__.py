@@ -63,7 +63,7 @@ __all__ = [
 
 # numerical references
 from limitcase.references.heston import heston_charfn, heston_price
-from limitcase.references.lattice import lattice_price, lattice_price_payoff
+from limitcase.references.lattice import lattice_price, lattice_price_dividends, lattice_price_payoff
 from limitcase.references.merton import merton_charfn, merton_jump_price
 from limitcase.references.quadrature import european_by_quadrature
 
@@ -71,6 +71,7 @@ __all__ += [
     # lattice
     "lattice_price",
     "lattice_price_payoff",
+    "lattice_price_dividends",
     # quadrature
     "european_by_quadrature",
     # heston
