@@ -31,7 +31,9 @@ from __future__ import annotations
 import numpy as np
 
 from limitcase import BlackScholes, Bound, Monotone, Param, Product, Reduction
-from limitcase.references import lattice_price
+from limitcase.errors import NoReference
+from limitcase.models import DividendBlackScholes
+from limitcase.references import black_scholes, lattice_price, lattice_price_dividends
 
 from ._common import bs_inputs, even_dates, own_closed_form
 from .vanilla import EuropeanCall, EuropeanPut
@@ -100,6 +102,17 @@ def _one_exercise_date(cls) -> Reduction:
     )
 
 
+def _no_dividend() -> Reduction:
+    return Reduction(
+        "no_dividend",
+        {},
+        model_changes={"dividend": 0.0},
+        exact=False,
+        becomes=lambda p: _european(p, EuropeanCall),
+        note="no dividends: a call is worth more alive than exercised (Merton 1973), the European call",
+    )
+
+
 MORE_DATES_NEVER_LOWER = Monotone(
     "exercises", +1, to=lambda p: _nested_fewer(p.exercises), name="more_dates_never_lower",
     note="the fewer dates are among the dates: the holder's choice only widens",
@@ -116,9 +129,27 @@ class _EarlyExercise(Product):
 
     abstract = True
     maturity = Param(1.0, low=0.0, low_open=True, doc="last exercise date in years")
+    option_kind = "put"
 
     def exercise_dates(self) -> np.ndarray:
         return self.dates()
+
+    def hold_value(self, obs, j):
+        """Black-Scholes value at exercise date ``j`` of the European on the remaining life,
+        from the paths' rate, continuous yield and variance: the variance still to come
+        where the model's is deterministic (known today), otherwise the variance realised
+        so far as a rate (known at that date; never the path's future). Used by the
+        Longstaff-Schwartz policy as a basis function and a floor (:mod:`limitcase.exercise`)."""
+        ex_t = self.exercise_dates()
+        k = int(np.searchsorted(obs.t, ex_t[j]))
+        last = int(np.searchsorted(obs.t, ex_t[-1]))
+        tau = float(obs.t[last] - obs.t[k])
+        step_var = np.asarray(obs.step_var, dtype=float)
+        if step_var.shape[0] == 1:
+            vol = np.sqrt(max(float(np.sum(step_var[0, k + 1: last + 1])), 0.0) / tau)
+        else:
+            vol = np.sqrt(np.maximum(np.sum(step_var[:, : k + 1], axis=1), 0.0) / obs.t[k])
+        return black_scholes(obs.s[:, k], self.strike, tau, obs.rate, obs.dividend, vol, self.option_kind)
 
     def _lattice(self, model, kind: str, exercise) -> float:
         spot, rate, dividend, vol = bs_inputs(model, self)
@@ -173,16 +204,12 @@ class BermudanCall(_Bermudan):
     """
 
     strike = CALL_STRIKE
+    option_kind = "call"
     reductions = (
         _one_exercise_date(EuropeanCall),
-        Reduction(
-            "no_dividend",
-            {},
-            model_changes={"dividend": 0.0},
-            exact=False,
-            becomes=lambda p: _european(p, EuropeanCall),
-            note="no dividends: a call is worth more alive than exercised (Merton 1973), the European call",
-        ),
+        _no_dividend(),
+        own_closed_form("lattice", allowance=_regression_allowance, reason=LS_REASON,
+                        note="binomial lattice with exercise on the same dates"),
     )
     relations = (AT_MOST_LATTICE, _above_european(EuropeanCall), MORE_DATES_NEVER_LOWER)
 
@@ -247,7 +274,13 @@ class AmericanCall(_Bermudan):
 
     exercises = AMERICAN_DATES
     strike = CALL_STRIKE
-    reductions = (_one_exercise_date(EuropeanCall),)
+    option_kind = "call"
+    reductions = (
+        _one_exercise_date(EuropeanCall),
+        _no_dividend(),
+        own_closed_form("lattice_american", allowance=_regression_allowance, reason=LS_REASON,
+                        note="binomial lattice, American exercise"),
+    )
     relations = (AT_MOST_LATTICE, _above_european(EuropeanCall))
 
     def exercise_value(self, obs):
@@ -261,3 +294,83 @@ class AmericanCall(_Bermudan):
 
     def scenario(self):
         return CALL_SCENARIO
+
+
+DIVIDEND_SCENARIO = DividendBlackScholes(spot=100.0, rate=0.05, dividend=0.0, vol=0.2, cash=((0.965, 3.0),))
+"""A stock paying one cash dividend of 3 just before expiry (ex-date 0.965, between the
+exercise dates 0.96 and 0.98 of a one-year right with 50 dates), no other dividends: the
+classic case where an American call is exercised early, just before the ex-date."""
+
+
+def _no_discrete_dividends(model, product):
+    return BlackScholes(spot=model.spot, rate=model.rate, dividend=model.dividend, vol=model.vol)
+
+
+def _dividend_lattice(p, model, exercise: str) -> float:
+    if not isinstance(model, DividendBlackScholes):
+        raise NoReference(f"{type(p).__name__} has a dividend lattice under DividendBlackScholes only")
+    return lattice_price_dividends(model.spot, p.strike, p.maturity, model.rate, model.vol, "call", exercise,
+                                   cash=model.cash, proportional=model.proportional, dividend=model.dividend)
+
+
+def _half_the_premium(p, model) -> float:
+    european = _dividend_lattice(p, model, "european")
+    return european + 0.5 * (_dividend_lattice(p, model, "american") - european)
+
+
+class AmericanCallCashDividend(AmericanCall):
+    """Pays max(S(t) - K, 0) at the time t the holder chooses (50 exercise dates a year,
+    as :class:`AmericanCall`), on a stock that pays a cash dividend just before expiry
+    (:data:`DIVIDEND_SCENARIO`, simulated by :class:`limitcase.models.DividendBlackScholes`).
+
+    Early exercise pays here: just before the ex-date the holder gives up the remaining
+    time value to collect the dividend. The lattice with discrete dividends
+    (:func:`limitcase.references.lattice_price_dividends`) says how much.
+
+    Limits: the lattice American call under the same dividends, within the
+    Longstaff-Schwartz allowance; no discrete dividends -> the European call (Merton 1973;
+    Black-Scholes, statistical, no allowance).
+    Relations: at most the lattice American price (no allowance); at least the lattice
+    European price under the dividends; early exercise worth at least half of what the
+    lattice says it is worth (the premium, American minus European, is above 3 here).
+    """
+
+    reductions = (
+        own_closed_form("lattice_american", allowance=_regression_allowance, reason=LS_REASON,
+                        note="lattice with the discrete dividend, American exercise"),
+        Reduction(
+            "no_dividend",
+            {},
+            model_changes={"cash": (), "proportional": ()},
+            reference_model=_no_discrete_dividends,
+            becomes=lambda p: _european(p, EuropeanCall),
+            note="no dividends: never exercised early (Merton 1973), the Black-Scholes European call",
+        ),
+    )
+    relations = (
+        AT_MOST_LATTICE,
+        Bound(
+            "above_european",
+            ">=",
+            lambda p, m: _dividend_lattice(p, m, "european"),
+            source="lattice European call under the same dividends (holding to expiry is one of the choices)",
+        ),
+        Bound(
+            "early_exercise_pays",
+            ">=",
+            _half_the_premium,
+            source="lattice: European plus half the early-exercise premium (American minus European)",
+            note="a policy that misses the exercise before the ex-date falls to the European price",
+        ),
+    )
+
+    def reference(self, model):
+        if isinstance(model, DividendBlackScholes):
+            return _dividend_lattice(self, model, "american")
+        return super().reference(model)
+
+    def reference_source(self) -> str:
+        return "lattice_price_dividends, American call"
+
+    def scenario(self):
+        return DIVIDEND_SCENARIO
