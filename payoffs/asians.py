@@ -30,6 +30,7 @@ import sympy as sp
 from limitcase import Bound, Convex, Identity, Monotone, NoReference, Param, ParamError, Product, Reduction
 from limitcase.symbolic import formula_symbols
 from limitcase.references import geometric_asian, margrabe_exchange
+from limitcase.references.schedules import equal_steps
 
 from ._common import bs_inputs, own_closed_form
 from .vanilla import EuropeanCall, EuropeanPut, PrepaidForward, ZeroCouponBond
@@ -56,6 +57,11 @@ class _Averaging(Product):
     def schedule(self) -> dict:
         """The fixing-schedule parameters, to build a companion product on the same fixings."""
         return {"maturity": self.maturity, "fixings": self.fixings, "start": self.start}
+
+    def contract_fixings(self) -> np.ndarray:
+        """The fixing dates as the contract's terms state them, rebuilt on the reference
+        side (never from :meth:`dates`, whose code a reference must not trust)."""
+        return equal_steps(self.maturity, self.fixings, self.start)
 
 
 class _FixedStrike(_Averaging):
@@ -150,7 +156,7 @@ class AverageForward(_FixedStrike):
         return obs.s.mean(axis=1) - self.strike
 
     def reference(self, model):
-        forwards = model.forward(self.dates())[:, 0]
+        forwards = model.forward(self.contract_fixings())[:, 0]
         return math.exp(-model.short_rate * self.maturity) * (forwards.mean() - self.strike)
 
     def reference_source(self) -> str:
@@ -183,7 +189,7 @@ class GeometricAsianCall(_FixedStrike):
 
     def reference(self, model):
         spot, rate, dividend, vol = bs_inputs(model, self)
-        return geometric_asian(spot, self.strike, self.dates(), rate, dividend, vol, "call")
+        return geometric_asian(spot, self.strike, self.contract_fixings(), rate, dividend, vol, "call")
 
     def reference_source(self) -> str:
         return "geometric_asian (Kemna-Vorst) call"
@@ -210,7 +216,7 @@ class GeometricAsianPut(_FixedStrike):
 
     def reference(self, model):
         spot, rate, dividend, vol = bs_inputs(model, self)
-        return geometric_asian(spot, self.strike, self.dates(), rate, dividend, vol, "put")
+        return geometric_asian(spot, self.strike, self.contract_fixings(), rate, dividend, vol, "put")
 
     def reference_source(self) -> str:
         return "geometric_asian (Kemna-Vorst) put"
@@ -326,7 +332,7 @@ def _geometric_floating(product: _FloatingStrike, model, kind: str) -> float:
     relative volatility ``sqrt(Var / T)``.
     """
     spot, rate, dividend, vol = bs_inputs(model, product)
-    t = product.dates()
+    t = product.contract_fixings()
     big_t = t[-1]
     t_mean = t.mean()
     t_var = np.minimum.outer(t, t).mean()

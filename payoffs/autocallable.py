@@ -35,6 +35,8 @@ from scipy.stats import norm
 from limitcase import BlackScholes, Bound, Identity, Model, Monotone, NoReference, Param, Product, Reduction
 from limitcase.references import cash_or_nothing, gap_option
 
+from limitcase.references.schedules import equal_steps
+
 from ._common import bs_inputs, even_dates, own_closed_form
 from .vanilla import ZeroCouponBond
 
@@ -144,7 +146,7 @@ class DigitalCouponNote(_Note):
 
     def reference(self, model: Model) -> float:
         spot, rate, dividend, vol = bs_inputs(model, self)
-        t = self.dates()
+        t = equal_steps(self.maturity, self.observations)  # from the terms, not from dates()
         coupons = cash_or_nothing(spot, self.coupon_barrier * spot, t, rate, dividend, vol, self.coupon * self.notional)
         shortfall = gap_option(spot, spot, self.protection * spot, self.maturity, rate, dividend, vol, "put")
         return float(np.sum(coupons) + self.notional * (math.exp(-rate * self.maturity) - shortfall / spot))
@@ -269,7 +271,7 @@ class Autocallable(_Note):
         if self.observations > 24:
             raise NoReference(f"the quadrature reference of Autocallable is limited to 24 dates, not {self.observations}")
         return autocall_by_quadrature(
-            self.dates(), rate, dividend, vol, self.notional, self.coupon, self.trigger,
+            equal_steps(self.maturity, self.observations), rate, dividend, vol, self.notional, self.coupon, self.trigger,
             self.coupon_barrier, self.protection, bool(self.memory),
         )
 

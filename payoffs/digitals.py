@@ -3,8 +3,10 @@
 Cash-or-nothing pays a fixed amount, asset-or-nothing the asset, when S(T) ends above
 (call) or below (put) the strike; a gap option pays S(T) - K2 when S(T) > K1 (call) or
 K2 - S(T) when S(T) < K1 (put). They decompose a European option path by path:
-max(S - K, 0) = S 1{S > K} - K 1{S > K}. Closed forms: Rubinstein and Reiner (1991),
-"Unscrambling the Binary Code", Risk 4(9), via :mod:`limitcase.references`.
+max(S - K, 0) = S 1{S > K} - K 1{S > K}. References: under Black-Scholes the closed forms
+of Rubinstein and Reiner (1991), "Unscrambling the Binary Code", Risk 4(9), via
+:mod:`limitcase.references`; under any model that states the characteristic function of
+its log-price (Heston, Merton, a user's model), the Fourier price of Lewis (2001).
 """
 
 from __future__ import annotations
@@ -14,9 +16,9 @@ import sympy as sp
 
 from limitcase.symbolic import formula_symbols
 from limitcase import Bound, Identity, Monotone, Param, Product, Reduction
-from limitcase.references import asset_or_nothing, cash_or_nothing, gap_option
+from limitcase.references import gap_option
 
-from ._common import bs_inputs, own_closed_form
+from ._common import BLACK_SCHOLES, bs_inputs, own_closed_form, terminal_method, terminal_price, terminal_source
 from .vanilla import EuropeanCall, EuropeanPut, ForwardContract, PrepaidForward, ZeroCouponBond
 
 
@@ -81,11 +83,10 @@ class CashOrNothingCall(_Digital):
         return sp.Piecewise((x.cash, x.S_T > x.strike), (0, True))
 
     def reference(self, model):
-        spot, rate, dividend, vol = bs_inputs(model, self)
-        return cash_or_nothing(spot, self.strike, self.maturity, rate, dividend, vol, self.cash, "call")
+        return self.cash * terminal_price(model, "cash_call", self.strike, self.maturity, self)
 
-    def reference_source(self) -> str:
-        return "cash-or-nothing call (Rubinstein-Reiner)"
+    def reference_source(self, model=None) -> str:
+        return terminal_source(model, "cash-or-nothing call", "cash-or-nothing call (Rubinstein-Reiner)")
 
 
 class CashOrNothingPut(_Digital):
@@ -116,11 +117,10 @@ class CashOrNothingPut(_Digital):
         return np.where(obs.s[:, -1] < self.strike, self.cash, 0.0)
 
     def reference(self, model):
-        spot, rate, dividend, vol = bs_inputs(model, self)
-        return cash_or_nothing(spot, self.strike, self.maturity, rate, dividend, vol, self.cash, "put")
+        return self.cash * terminal_price(model, "cash_put", self.strike, self.maturity, self)
 
-    def reference_source(self) -> str:
-        return "cash-or-nothing put (Rubinstein-Reiner)"
+    def reference_source(self, model=None) -> str:
+        return terminal_source(model, "cash-or-nothing put", "cash-or-nothing put (Rubinstein-Reiner)")
 
 
 class AssetOrNothingCall(_Digital):
@@ -153,11 +153,10 @@ class AssetOrNothingCall(_Digital):
         return np.where(s > self.strike, s, 0.0)
 
     def reference(self, model):
-        spot, rate, dividend, vol = bs_inputs(model, self)
-        return asset_or_nothing(spot, self.strike, self.maturity, rate, dividend, vol, "call")
+        return terminal_price(model, "asset_call", self.strike, self.maturity, self)
 
-    def reference_source(self) -> str:
-        return "asset-or-nothing call (Rubinstein-Reiner)"
+    def reference_source(self, model=None) -> str:
+        return terminal_source(model, "asset-or-nothing call", "asset-or-nothing call (Rubinstein-Reiner)")
 
 
 class AssetOrNothingPut(_Digital):
@@ -192,11 +191,10 @@ class AssetOrNothingPut(_Digital):
         return np.where(s < self.strike, s, 0.0)
 
     def reference(self, model):
-        spot, rate, dividend, vol = bs_inputs(model, self)
-        return asset_or_nothing(spot, self.strike, self.maturity, rate, dividend, vol, "put")
+        return terminal_price(model, "asset_put", self.strike, self.maturity, self)
 
-    def reference_source(self) -> str:
-        return "asset-or-nothing put (Rubinstein-Reiner)"
+    def reference_source(self, model=None) -> str:
+        return terminal_source(model, "asset-or-nothing put", "asset-or-nothing put (Rubinstein-Reiner)")
 
 
 class _Gap(_Digital):
@@ -241,11 +239,15 @@ class GapCall(_Gap):
         return np.where(s > self.trigger, s - self.strike, 0.0)
 
     def reference(self, model):
-        spot, rate, dividend, vol = bs_inputs(model, self)
-        return gap_option(spot, self.strike, self.trigger, self.maturity, rate, dividend, vol, "call")
+        if terminal_method(model, self) == BLACK_SCHOLES:
+            spot, rate, dividend, vol = bs_inputs(model, self)
+            return gap_option(spot, self.strike, self.trigger, self.maturity, rate, dividend, vol, "call")
+        # S 1{S > K1} - K2 1{S > K1}
+        return (terminal_price(model, "asset_call", self.trigger, self.maturity, self)
+                - self.strike * terminal_price(model, "cash_call", self.trigger, self.maturity, self))
 
-    def reference_source(self) -> str:
-        return "gap call (Rubinstein-Reiner)"
+    def reference_source(self, model=None) -> str:
+        return terminal_source(model, "asset and cash digitals", "gap call (Rubinstein-Reiner)")
 
 
 class GapPut(_Gap):
@@ -276,8 +278,12 @@ class GapPut(_Gap):
         return np.where(s < self.trigger, self.strike - s, 0.0)
 
     def reference(self, model):
-        spot, rate, dividend, vol = bs_inputs(model, self)
-        return gap_option(spot, self.strike, self.trigger, self.maturity, rate, dividend, vol, "put")
+        if terminal_method(model, self) == BLACK_SCHOLES:
+            spot, rate, dividend, vol = bs_inputs(model, self)
+            return gap_option(spot, self.strike, self.trigger, self.maturity, rate, dividend, vol, "put")
+        # K2 1{S < K1} - S 1{S < K1}
+        return (self.strike * terminal_price(model, "cash_put", self.trigger, self.maturity, self)
+                - terminal_price(model, "asset_put", self.trigger, self.maturity, self))
 
-    def reference_source(self) -> str:
-        return "gap put (Rubinstein-Reiner)"
+    def reference_source(self, model=None) -> str:
+        return terminal_source(model, "cash and asset digitals", "gap put (Rubinstein-Reiner)")

@@ -25,6 +25,8 @@ import numpy as np
 from limitcase import Convex, Monotone, NoReference, Param, ParamError, Product, Reduction
 from limitcase.references import black_scholes, forward_start
 
+from limitcase.references.schedules import equal_steps
+
 from ._common import bs_inputs, even_dates, own_closed_form, period_starts
 from .vanilla import EuropeanCall, EuropeanPut, PrepaidForward, ZeroCouponBond
 
@@ -225,7 +227,7 @@ class Cliquet(Product):
                 "Cliquet has a closed form only where its global floor and cap cannot bind "
                 f"(global_floor <= {n * floor:g}, global_cap >= {n * cap:g})"
             )
-        dt = np.diff(self.dates(), prepend=0.0)
+        dt = np.diff(equal_steps(self.maturity, self.periods), prepend=0.0)  # from the terms
 
         def calls(strike: float) -> np.ndarray:  # E[max(S(t_i)/S(t_i-1) - strike, 0)] per period
             if strike == math.inf:

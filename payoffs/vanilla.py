@@ -1,8 +1,11 @@
 """The base cases most reductions end on: prepaid forward, forward contract, zero-coupon
 bond, European call and put, straddle.
 
-Each states its payoff, its Black-Scholes price (``reference``) and the limits and
-relations it must meet: put-call parity path by path, the model-free bounds
+Each states its payoff, its reference price and the limits and relations it must meet.
+The forward, the forward contract and the bond have model-free references; the call, put
+and straddle have the Black-Scholes closed form under Black-Scholes and the Fourier price
+of Lewis (2001) under any model that states the characteristic function of its log-price
+(Heston, Merton, a user's model). The relations: put-call parity path by path, the model-free bounds
 ``0 <= call <= S0 exp(-qT)`` and ``put <= K exp(-rT)``, monotone and convex in the strike.
 """
 
@@ -15,9 +18,9 @@ import sympy as sp
 
 from limitcase import Bound, Convex, Identity, Monotone, Param, Product, Reduction
 from limitcase.symbolic import formula_symbols
-from limitcase.references import black_scholes, prepaid_forward
+from limitcase.references import prepaid_forward
 
-from ._common import bs_inputs, market, own_closed_form
+from ._common import market, own_closed_form, terminal_price, terminal_source
 
 
 class PrepaidForward(Product):
@@ -40,7 +43,7 @@ class PrepaidForward(Product):
         spot, _, dividend = market(model)
         return prepaid_forward(spot, self.maturity, dividend)
 
-    def reference_source(self) -> str:
+    def reference_source(self, model=None) -> str:
         return "S0 exp(-qT)"
 
 
@@ -68,7 +71,7 @@ class ZeroCouponBond(Product):
     def reference(self, model):
         return self.cash * math.exp(-model.short_rate * self.maturity)
 
-    def reference_source(self) -> str:
+    def reference_source(self, model=None) -> str:
         return "C exp(-rT)"
 
 
@@ -102,7 +105,7 @@ class ForwardContract(Product):
         spot, rate, dividend = market(model)
         return prepaid_forward(spot, self.maturity, dividend) - self.strike * math.exp(-rate * self.maturity)
 
-    def reference_source(self) -> str:
+    def reference_source(self, model=None) -> str:
         return "S0 exp(-qT) - K exp(-rT)"
 
 
@@ -133,7 +136,7 @@ class EuropeanCall(Product):
             becomes=lambda p: PrepaidForward(maturity=p.maturity),
             note="strike 0: the call pays S(T) on every path, the prepaid forward",
         ),
-        own_closed_form(note="Black-Scholes call"),
+        own_closed_form(note="the call's reference: Black-Scholes, or Fourier from the model's characteristic function"),
     )
     relations = (
         Identity(
@@ -171,11 +174,10 @@ class EuropeanCall(Product):
         return sp.Max(x.S_T - x.strike, 0)
 
     def reference(self, model):
-        spot, rate, dividend, vol = bs_inputs(model, self)
-        return black_scholes(spot, self.strike, self.maturity, rate, dividend, vol, "call")
+        return terminal_price(model, "call", self.strike, self.maturity, self)
 
-    def reference_source(self) -> str:
-        return "Black-Scholes call"
+    def reference_source(self, model=None) -> str:
+        return terminal_source(model, "call", "Black-Scholes call")
 
 
 class EuropeanPut(Product):
@@ -196,7 +198,7 @@ class EuropeanPut(Product):
             becomes=lambda p: ZeroCouponBond(cash=0.0, maturity=p.maturity),
             note="strike 0: max(-S(T), 0) = 0 on every path",
         ),
-        own_closed_form(note="Black-Scholes put"),
+        own_closed_form(note="the put's reference: Black-Scholes, or Fourier from the model's characteristic function"),
     )
     relations = (
         Bound(
@@ -222,11 +224,10 @@ class EuropeanPut(Product):
         return sp.Max(x.strike - x.S_T, 0)
 
     def reference(self, model):
-        spot, rate, dividend, vol = bs_inputs(model, self)
-        return black_scholes(spot, self.strike, self.maturity, rate, dividend, vol, "put")
+        return terminal_price(model, "put", self.strike, self.maturity, self)
 
-    def reference_source(self) -> str:
-        return "Black-Scholes put"
+    def reference_source(self, model=None) -> str:
+        return terminal_source(model, "put", "Black-Scholes put")
 
 
 class Straddle(Product):
@@ -245,7 +246,7 @@ class Straddle(Product):
             becomes=lambda p: PrepaidForward(maturity=p.maturity),
             note="strike 0: |S(T)| = S(T) on every path",
         ),
-        own_closed_form(note="Black-Scholes call + put"),
+        own_closed_form(note="call + put, each by its reference"),
     )
     relations = (
         Identity("call_plus_put", lambda p: [(1.0, p), (-1.0, _call(p)), (-1.0, _put(p))]),
@@ -260,5 +261,5 @@ class Straddle(Product):
     def reference(self, model):
         return _call(self).reference(model) + _put(self).reference(model)
 
-    def reference_source(self) -> str:
-        return "Black-Scholes call + put"
+    def reference_source(self, model=None) -> str:
+        return terminal_source(model, "call + put", "Black-Scholes call + put")

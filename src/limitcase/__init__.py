@@ -6,7 +6,7 @@ them on common paths with standard errors; the verdict applies Holm's correction
 """
 
 from .engine import BLOCK, Estimate, evaluate, price
-from .errors import InputError, LimitcaseError, ModelError, NoReference, ParamError, PayoffError
+from .errors import DeclarationError, InputError, LimitcaseError, ModelError, NoReference, ParamError, PayoffError
 from .models import BlackScholes, Heston, Merton, Model, MultiBlackScholes
 from .params import Param
 from .product import Cashflows, Observed, Product
@@ -20,6 +20,7 @@ __all__ = [
     "Cashflows",
     "Check",
     "Convex",
+    "DeclarationError",
     "Estimate",
     "Heston",
     "Identity",

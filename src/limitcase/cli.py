@@ -26,8 +26,16 @@ from .cli_support import (
     select_checks,
     write_outputs,
 )
-from .sampling import METHODS
-from .suite import DEFAULT_MAX_PATHS
+from .settings import (
+    DEFAULT_MAX_PATHS,
+    DEFAULT_METHOD,
+    DEFAULT_REGRESSION_PATHS,
+    METHODS,
+    MIN_MAX_PATHS,
+    MIN_REGRESSION_PATHS,
+    reproduce_command,
+)
+
 
 @click.group(context_settings={"help_option_names": ["-h", "--help"]})
 @click.version_option(__version__, prog_name="limitcase")
@@ -42,16 +50,16 @@ def main() -> None:
 @common_run_options
 @click.option("--select", "selects", multiple=True, metavar="TEXT",
               help="Run only the cases whose 'product/case' contains TEXT (repeatable).")
-@click.option("--regression-paths", type=click.IntRange(min=1000), default=None,
-              help="Pilot paths for Longstaff-Schwartz policies (default 65536).")
-@click.option("--method", type=click.Choice(METHODS), default="auto", show_default=True,
+@click.option("--regression-paths", type=click.IntRange(min=MIN_REGRESSION_PATHS), default=None,
+              help=f"Pilot paths for Longstaff-Schwartz policies (default {DEFAULT_REGRESSION_PATHS}).")
+@click.option("--method", type=click.Choice(METHODS), default=DEFAULT_METHOD, show_default=True,
               help="Variance reduction: plain, antithetic pairs, control variates, Sobol points with a "
                    "Brownian bridge, or combinations; auto picks control variates with Sobol points where "
                    "they apply and antithetic pairs otherwise.")
 @click.option("--precision", metavar="X", default=None,
               help="Add paths until every check's detectable bias (90% power) is at most X: a price "
                    "difference (0.01) or, with a trailing %, relative to the reference (0.5%).")
-@click.option("--max-paths", type=click.IntRange(min=100), default=DEFAULT_MAX_PATHS, show_default=True,
+@click.option("--max-paths", type=click.IntRange(min=MIN_MAX_PATHS), default=DEFAULT_MAX_PATHS, show_default=True,
               help="Path budget of each check under --precision.")
 @click.option("--workers", type=click.IntRange(min=1), default=None,
               help="Worker processes (default: all cores). The numbers do not depend on it.")
@@ -63,11 +71,11 @@ def check(paths_in: tuple[str, ...], paths: int, seed: int, alpha: float, json_p
     folders of .py files; default: the shipped catalogue)."""
     import time
 
-    from .engine import DEFAULT_REGRESSION_PATHS
     from .loader import load_products
     from .reduce import checks_for
     from .report import render_summary, render_table
-    from .suite import default_workers, parse_precision, run_checks
+    from .settings import default_workers
+    from .suite import parse_precision, run_checks
 
     target = parse_precision(precision) if precision is not None else None
     products = load_products(paths_in)
@@ -93,11 +101,9 @@ def check(paths_in: tuple[str, ...], paths: int, seed: int, alpha: float, json_p
     click.echo("")
     click.echo(_detection_table(result))
     click.echo("")
-    reproduce = f"limitcase check {' '.join(paths_in)}".rstrip()
-    if method != "auto":
-        reproduce += f" --method {method}"
-    if target is not None:
-        reproduce += f" --precision {precision} --max-paths {max_paths}"
+    # seed and paths are appended per failing check by the renderers
+    reproduce = reproduce_command("check", paths_in, seed=None, paths=None, method=method, precision=precision,
+                                  max_paths=max_paths, alpha=alpha)
     click.echo(render_summary(result, reproduce=reproduce))
     used = result.extra.get("processes", 1)
     click.echo(f"{result.extra['wall_seconds']:.1f} s on " + ("1 process" if used == 1 else f"{used} worker processes"))

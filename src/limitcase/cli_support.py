@@ -15,7 +15,7 @@ from typing import Any, Callable, Sequence
 import click
 
 from .errors import LimitcaseError
-from .suite import DEFAULT_ALPHA, DEFAULT_PATHS, DEFAULT_SEED
+from .settings import DEFAULT_ALPHA, DEFAULT_PATHS, DEFAULT_SEED, MIN_COMMAND_PATHS
 
 __all__ = [
     "EXIT_OK", "EXIT_FAIL", "EXIT_INPUT", "InputFailure", "handle_errors", "show_progress",
@@ -82,7 +82,7 @@ class Progress:
 def common_run_options(fn: Callable[..., Any]) -> Callable[..., Any]:
     """Options shared by the commands that run checks."""
     opts = [
-        click.option("--paths", type=click.IntRange(min=100), default=DEFAULT_PATHS, show_default=True,
+        click.option("--paths", type=click.IntRange(min=MIN_COMMAND_PATHS), default=DEFAULT_PATHS, show_default=True,
                      help="Monte Carlo paths per check."),
         click.option("--seed", type=click.IntRange(min=0), default=DEFAULT_SEED, show_default=True,
                      help="Seed of the run; every check draws its own streams from it."),

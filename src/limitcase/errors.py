@@ -13,6 +13,7 @@ __all__ = [
     "NoReference",
     "PayoffError",
     "ModelError",
+    "DeclarationError",
 ]
 
 
@@ -38,3 +39,9 @@ class PayoffError(LimitcaseError, RuntimeError):
 
 class ModelError(LimitcaseError, ValueError):
     """A model cannot simulate what was asked (bad grid, bad correlation, ...)."""
+
+
+class DeclarationError(ParamError):
+    """A product's or model's declarations are inconsistent (a reduction or relation naming a
+    parameter that does not exist, a parameter default outside its own range, two checks of
+    one name, ...): raised when the class is defined, naming the class and the declaration."""

@@ -7,12 +7,13 @@ that may go to ``inf``, a number of fixings that may go down to ``1``).
 
 from __future__ import annotations
 
+import inspect
 import math
 import numbers
 from dataclasses import dataclass, field
 from typing import Any, ClassVar, Iterator, Mapping
 
-from .errors import ParamError
+from .errors import DeclarationError, ParamError
 
 __all__ = ["Param", "Parametrised"]
 
@@ -139,6 +140,9 @@ class Parametrised:
                 if isinstance(value, Param):
                     specs[name] = value
         cls._param_specs = specs
+        for name, spec in vars(cls).items():  # inherited ones were checked on their own class
+            if isinstance(spec, Param):
+                _check_default(cls, name, spec)
 
     def __init__(self, **overrides: Any) -> None:
         specs = type(self)._param_specs
@@ -186,6 +190,29 @@ class Parametrised:
     def __repr__(self) -> str:
         inner = ", ".join(f"{k}={_short(v)}" for k, v in self._values.items())
         return f"{type(self).__name__}({inner})"
+
+
+def _check_default(cls: type, name: str, spec: Param) -> None:
+    """A declared default must lie in the parameter's own range: raise
+    :class:`DeclarationError` when the class is defined, naming the class and the parameter."""
+    try:
+        spec.validate(spec.default)
+    except ParamError as exc:
+        raise DeclarationError(
+            f"{cls.__name__}: the default of parameter {name!r} is invalid: {exc} "
+            f"(declared as {name} = Param({spec.default!r}, ...) on {cls.__qualname__} in {_where(cls)})"
+        ) from None
+
+
+def _where(cls: type) -> str:
+    """``module m (path/file.py, line n)`` of a class, as far as it can be found."""
+    text = f"module {cls.__module__}"
+    try:
+        path = inspect.getsourcefile(cls)
+        line = inspect.getsourcelines(cls)[1]
+    except (OSError, TypeError):
+        return text
+    return f"{text} ({path}, line {line})"
 
 
 def _short(v: Any) -> str:

@@ -26,14 +26,14 @@ from typing import TYPE_CHECKING, Any, ClassVar
 
 import numpy as np
 
-from .errors import NoReference, ParamError
+from .errors import DeclarationError, NoReference, ParamError
 from .params import Parametrised
 
 if TYPE_CHECKING:  # pragma: no cover
     from .models.base import Model
     from .reduce import Reduction, Relation
 
-__all__ = ["Product", "Observed", "Cashflows"]
+__all__ = ["Product", "Observed", "Cashflows", "validate_declarations"]
 
 
 @dataclass(frozen=True, slots=True)
@@ -135,6 +135,8 @@ class Product(Parametrised):
         super().__init_subclass__(**kwargs)
         if "abstract" not in vars(cls):
             cls.abstract = False
+        if not cls.abstract:  # a shared base may declare for parameters its subclasses add
+            validate_declarations(cls)
 
     # --- hooks -----------------------------------------------------------------------
     def dates(self) -> np.ndarray:
@@ -177,8 +179,10 @@ class Product(Parametrised):
         """A trusted price of this product under ``model`` (closed form or numerical)."""
         raise NoReference(f"{type(self).__name__} has no reference price")
 
-    def reference_source(self) -> str:
-        """Where :meth:`reference` comes from, for the report (override with the formula's name)."""
+    def reference_source(self, model: "Model | None" = None) -> str:
+        """Where :meth:`reference` comes from, for the report (override with the formula's
+        name); given the ``model``, the method used under it (a closed form or the Fourier
+        price from the model's characteristic function)."""
         return f"{type(self).__name__}.reference"
 
     def control_variates(self, model: "Model") -> tuple[tuple["Product", float], ...]:
@@ -228,6 +232,44 @@ class Product(Parametrised):
             return type(self).__name__
         inner = ", ".join(f"{k}={_fmt(v)}" for k, v in changed.items())
         return f"{type(self).__name__}({inner})"
+
+
+def validate_declarations(cls: type) -> None:
+    """Validate a product class's ``reductions`` and ``relations`` when it is defined.
+
+    Each declaration checks itself (``validate_on`` of :class:`limitcase.reduce.Reduction` and
+    :class:`limitcase.reduce.Relation`: parameters that exist, a direction of +1 or -1, a side
+    of ``>=`` or ``<=``, ...); then no two checks may share a name. Raises :class:`DeclarationError` naming the class and the
+    declaration, with a close-match suggestion for a misspelt parameter.
+    """
+    seen: dict[str, str] = {}
+    for attr in ("reductions", "relations"):
+        declared = getattr(cls, attr)
+        if isinstance(declared, (str, bytes)) or not isinstance(declared, (tuple, list)):
+            raise DeclarationError(f"{cls.__name__}.{attr} = {declared!r}; give a tuple of declarations")
+        for i, decl in enumerate(declared):
+            kind = getattr(decl, "declaration_kind", None)
+            if kind is None and attr == "relations" and callable(getattr(decl, "checks", None)):
+                continue  # a relation of the user's own, not derived from Relation: nothing to check
+            if kind is None or not callable(getattr(decl, "validate_on", None)):
+                raise DeclarationError(
+                    f"{cls.__name__}.{attr}[{i}] is {decl!r}, not a declaration; use Reduction(...) in "
+                    "reductions and Identity, Monotone, Convex, Bound or a Relation subclass in relations"
+                )
+            if kind != attr:
+                raise DeclarationError(
+                    f"{cls.__name__}.{attr}[{i}] is a {type(decl).__name__}, which belongs in {kind}"
+                )
+            decl.validate_on(cls)
+            name = decl.case_name
+            if not name:
+                continue
+            if name in seen:
+                raise DeclarationError(
+                    f"{cls.__name__}: two checks are named {name!r} ({seen[name]} and {decl.describe()}); "
+                    "give each its own name"
+                )
+            seen[name] = decl.describe()
 
 
 def _fmt(v: Any) -> str:

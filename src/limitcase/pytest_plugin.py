@@ -5,7 +5,7 @@ products are, in the ini file::
 
     [pytest]                         # or [tool.pytest.ini_options] in pyproject.toml
     limitcase_payoffs = payoffs      # files or folders of .py files, relative to the ini file
-    limitcase_paths = 100000         # optional; default 100000, as `limitcase check`
+    limitcase_paths = 100000         # optional; default as `limitcase check` (100000)
     limitcase_seed = 20261201        # optional; default as `limitcase check`
     limitcase_alpha = 0.01           # optional; default as `limitcase check`
     limitcase_method = auto          # optional; sampling method, as `limitcase check --method`
@@ -58,7 +58,7 @@ def pytest_addoption(parser: pytest.Parser) -> None:
     group.addoption("--limitcase-payoffs", action="append", default=[], metavar="PATH",
                     help="File or folder of product modules whose cases to collect (repeatable).")
     group.addoption("--limitcase-paths", type=int, default=None, metavar="N",
-                    help="Monte Carlo paths per case (default: ini limitcase_paths, else 100000).")
+                    help="Monte Carlo paths per case (default: ini limitcase_paths, else as `limitcase check`).")
     group.addoption("--limitcase-seed", type=int, default=None, metavar="SEED",
                     help="Seed of the limitcase run (default: ini limitcase_seed, else limitcase's).")
     group.addoption("--limitcase-alpha", type=float, default=None, metavar="ALPHA",
@@ -92,22 +92,17 @@ def _settings(config: pytest.Config) -> _Settings | None:
     ini = tuple(Path(p).resolve() for p in config.getini("limitcase_payoffs") or [])
     if not cli and not ini:
         return None  # not configured: collect nothing, import nothing
-    from .suite import DEFAULT_ALPHA, DEFAULT_PATHS, DEFAULT_SEED
+    from .errors import ParamError
+    from .settings import DEFAULT_ALPHA, DEFAULT_METHOD, DEFAULT_PATHS, DEFAULT_SEED, MIN_COMMAND_PATHS, validate_run
 
     paths = _setting(config, "limitcase_paths", "limitcase_paths", int, DEFAULT_PATHS)
     seed = _setting(config, "limitcase_seed", "limitcase_seed", int, DEFAULT_SEED)
     alpha = _setting(config, "limitcase_alpha", "limitcase_alpha", float, DEFAULT_ALPHA)
-    if paths < 100:
-        raise pytest.UsageError(f"limitcase paths={paths!r} is too few; use at least 100 (default {DEFAULT_PATHS})")
-    if seed < 0:
-        raise pytest.UsageError(f"limitcase seed={seed!r} must be a non-negative integer")
-    from .sampling import METHODS
-
-    method = _setting(config, "limitcase_method", "limitcase_method", str, "auto")
-    if method not in METHODS:
-        raise pytest.UsageError(f"limitcase method={method!r} is not one of {', '.join(METHODS)}")
-    if not 0.0 < alpha < 1.0:
-        raise pytest.UsageError(f"limitcase alpha={alpha!r} must lie in (0, 1), e.g. {DEFAULT_ALPHA}")
+    method = _setting(config, "limitcase_method", "limitcase_method", str, DEFAULT_METHOD)
+    try:
+        validate_run(paths=paths, seed=seed, alpha=alpha, method=method, min_paths=MIN_COMMAND_PATHS)
+    except ParamError as exc:
+        raise pytest.UsageError(f"limitcase: {exc}") from None
     for p in cli + ini:
         if not p.exists():
             raise pytest.UsageError(f"limitcase payoffs path {p} does not exist; fix limitcase_payoffs / --limitcase-payoffs")
@@ -274,11 +269,11 @@ class _Run:
             f"  settings: paths {self.st.paths}, seed {self.st.seed}, alpha {self.st.alpha:g}, "
             f"Holm over the {self.m} limitcase item(s) of this session"
         )
-        lines.append(
-            f"  reproduce: limitcase check {item.path} --seed {self.st.seed} --paths {self.st.paths} "
-            f"--alpha {self.st.alpha:g} --select '{o.product}/{o.case}'"
-            + (f" --method {self.st.method}" if self.st.method != "auto" else "")
-        )
+        from .settings import reproduce_command
+
+        lines.append("  reproduce: " + reproduce_command(
+            "check", [str(item.path)], seed=self.st.seed, paths=self.st.paths, alpha=self.st.alpha,
+            method=self.st.method, select=f"{o.product}/{o.case}"))
         return "\n".join(lines)
 
 

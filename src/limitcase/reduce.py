@@ -19,13 +19,13 @@ module decides.
 
 from __future__ import annotations
 
+import difflib
 import math
 from dataclasses import dataclass, field
-from typing import Any, Callable, Mapping, Sequence
+from typing import Any, Callable, ClassVar, Mapping, Sequence
 
-
-from .engine import PathRule
-from .errors import LimitcaseError, NoReference, ParamError
+from .checks import Check, PathRule
+from .errors import DeclarationError, LimitcaseError, NoReference, ParamError
 from .models.base import Model
 from .product import Product
 
@@ -39,6 +39,8 @@ __all__ = [
     "Check",
     "checks_for",
     "limit_product",
+    "reduction_check",
+    "PathRule",
 ]
 
 Value = Any  # a number, or a callable of the product giving one
@@ -48,30 +50,30 @@ def _resolve(value: Value, product: Product) -> Any:
     return value(product) if callable(value) else value
 
 
-@dataclass(frozen=True)
-class Check:
-    """One thing to verify by Monte Carlo: legs priced on common paths, path rules that
-    must hold on every path, and a statistic ``sum(weights * prices)`` compared with
-    ``target`` under ``sense`` (``==``, ``>=`` or ``<=``) and a declared allowance."""
+def _suggest(name: str, known: Sequence[str]) -> str:
+    """``; did you mean 'x'?`` for the closest known name (difflib), or the known names."""
+    close = difflib.get_close_matches(str(name), list(known), n=1, cutoff=0.6)
+    if close:
+        return f"; did you mean {close[0]!r}?"
+    return f"; its parameters are: {', '.join(known) or 'none'}"
 
-    product: str
-    case: str
-    kind: str
-    legs: tuple[Product, ...] = ()
-    model: Model | None = None
-    weights: tuple[float, ...] = ()
-    target: float = 0.0
-    target_source: str = ""
-    sense: str = "=="
-    rules: tuple[PathRule, ...] = ()
-    allowance: float = 0.0
-    allowance_reason: str = ""
-    note: str = ""
-    error: str | None = None
 
-    @property
-    def label(self) -> str:
-        return f"{self.product}/{self.case}"
+def _require_param(cls: type, what: str, name: Any, verb: str = "names") -> None:
+    """Raise :class:`DeclarationError` unless ``name`` is a declared parameter of ``cls``."""
+    known = list(cls.param_specs())  # type: ignore[attr-defined]
+    if name not in known:
+        raise DeclarationError(
+            f"{cls.__name__}: {what} {verb} {name!r}, which is not a parameter{_suggest(name, known)}"
+        )
+
+
+def _param_value(product: Product, what: str, name: str) -> Any:
+    """The value of parameter ``name`` of ``product``, or a :class:`DeclarationError` naming
+    the declaration (for declarations that escaped the class-time validation)."""
+    values = product.params()
+    if name not in values:
+        _require_param(type(product), what, name)
+    return values[name]
 
 
 @dataclass(frozen=True)
@@ -112,9 +114,56 @@ class Reduction:
     reason: str = ""
     note: str = ""
 
+    declaration_kind: ClassVar[str] = "reductions"
+
+    @property
+    def case_name(self) -> str:
+        """The name of the check this declaration produces."""
+        return self.name
+
+    def describe(self) -> str:
+        return f"Reduction {self.name!r}"
+
+    def validate_on(self, cls: type) -> None:
+        """Checks run when ``cls`` is defined: a name, known parameters, a callable ``becomes``."""
+        if not isinstance(self.name, str) or not self.name:
+            raise DeclarationError(f"{cls.__name__}: a Reduction needs a non-empty name; got {self.name!r}")
+        if not isinstance(self.changes, Mapping):
+            raise DeclarationError(
+                f"{cls.__name__}: {self.describe()} changes={self.changes!r}; give a mapping "
+                "parameter -> limit value (or a callable of the product)"
+            )
+        for key in self.changes:
+            _require_param(cls, self.describe(), key, "sets")
+        if not callable(self.becomes):
+            raise DeclarationError(
+                f"{cls.__name__}: {self.describe()} becomes={self.becomes!r} is not callable; give a "
+                "function of the product at its limit returning the base product"
+            )
+        if self.reference_model is not None and not callable(self.reference_model):
+            raise DeclarationError(
+                f"{cls.__name__}: {self.describe()} reference_model={self.reference_model!r} is not callable"
+            )
+
 
 class Relation:
-    """Base of the must-hold relations; subclasses produce their checks."""
+    """Base of the must-hold relations; subclasses produce their checks.
+
+    A subclass may override :meth:`validate_on` (run when a product class declaring it is
+    defined) and :attr:`case_name` (the name of its check, when it is known in advance)."""
+
+    declaration_kind: ClassVar[str] = "relations"
+
+    @property
+    def case_name(self) -> str:
+        """The name of the check this relation produces ("" when it depends on the product)."""
+        return getattr(self, "name", "") or ""
+
+    def describe(self) -> str:
+        return f"{type(self).__name__} {self.case_name!r}" if self.case_name else type(self).__name__
+
+    def validate_on(self, cls: type) -> None:
+        """Checks run when a product class declaring this relation is defined; default none."""
 
     def checks(self, product: Product, model: Model) -> list[Check]:
         raise NotImplementedError
@@ -131,6 +180,15 @@ class Identity(Relation):
     legs: Callable[[Product], Sequence[tuple[float, Product]]]
     pathwise: bool = True
     note: str = ""
+
+    def validate_on(self, cls: type) -> None:
+        if not isinstance(self.name, str) or not self.name:
+            raise DeclarationError(f"{cls.__name__}: an Identity needs a non-empty name; got {self.name!r}")
+        if not callable(self.legs):
+            raise DeclarationError(
+                f"{cls.__name__}: {self.describe()} legs={self.legs!r} is not callable; give a function "
+                "of the product returning [(weight, product), ...]"
+            )
 
     def checks(self, product: Product, model: Model) -> list[Check]:
         pairs = list(self.legs(product))
@@ -170,13 +228,25 @@ class Monotone(Relation):
     name: str = ""
     note: str = ""
 
+    @property
+    def case_name(self) -> str:
+        return self.name or f"{'increasing' if self.direction > 0 else 'decreasing'}_in_{self.param}"
+
+    def validate_on(self, cls: type) -> None:
+        _require_param(cls, self.describe(), self.param)
+        if isinstance(self.direction, bool) or self.direction not in (1, -1):
+            raise DeclarationError(
+                f"{cls.__name__}: {self.describe()} has direction={self.direction!r}; use +1 (the price "
+                f"increases in {self.param!r}) or -1 (it decreases)"
+            )
+
     def checks(self, product: Product, model: Model) -> list[Check]:
-        here = product.params()[self.param]
+        here = _param_value(product, self.describe(), self.param)
         there = _resolve(self.to, product)
         moved = product.replace(**{self.param: there})
         up = there > here
         sense = ">=" if (self.direction > 0) == up else "<="
-        name = self.name or f"{'increasing' if self.direction > 0 else 'decreasing'}_in_{self.param}"
+        name = self.case_name
         rules = (PathRule((1.0, -1.0), sense),) if self.pathwise else ()
         return [
             Check(
@@ -205,15 +275,22 @@ class Convex(Relation):
     name: str = ""
     note: str = ""
 
+    @property
+    def case_name(self) -> str:
+        return self.name or f"convex_in_{self.param}"
+
+    def validate_on(self, cls: type) -> None:
+        _require_param(cls, self.describe(), self.param)
+
     def checks(self, product: Product, model: Model) -> list[Check]:
-        x = product.params()[self.param]
+        x = _param_value(product, self.describe(), self.param)
         h = _resolve(self.step, product)
         legs = (product.replace(**{self.param: x - h}), product, product.replace(**{self.param: x + h}))
         w = (1.0, -2.0, 1.0)
         return [
             Check(
                 product=type(product).__name__,
-                case=self.name or f"convex_in_{self.param}",
+                case=self.case_name,
                 kind="relation",
                 legs=legs,
                 model=model,
@@ -243,10 +320,30 @@ class Bound(Relation):
     source: str = ""
     note: str = ""
 
+    def validate_on(self, cls: type) -> None:
+        if not isinstance(self.name, str) or not self.name:
+            raise DeclarationError(f"{cls.__name__}: a Bound needs a non-empty name; got {self.name!r}")
+        if self.side not in (">=", "<="):
+            close = difflib.get_close_matches(str(self.side), [">=", "<="], n=1, cutoff=0.0)
+            raise DeclarationError(
+                f"{cls.__name__}: {self.describe()} has side={self.side!r}; use '>=' or '<='"
+                + (f"; did you mean {close[0]!r}?" if close else "")
+            )
+        if not callable(self.value):
+            raise DeclarationError(
+                f"{cls.__name__}: {self.describe()} value={self.value!r} is not callable; give a function "
+                "(product, model) -> bound"
+            )
+
     def checks(self, product: Product, model: Model) -> list[Check]:
         if self.side not in (">=", "<="):
             raise ParamError(f"Bound {self.name!r}: side={self.side!r} must be '>=' or '<='")
         target = float(self.value(product, model))
+        if math.isnan(target):
+            raise DeclarationError(
+                f"{type(product).__name__}: {self.describe()} evaluates to NaN at {product.label()} under "
+                f"{type(model).__name__}; a bound must be a number (check the formula's domain)"
+            )
         legs: tuple[Product, ...] = (product,)
         weights: tuple[float, ...] = (1.0,)
         rules: tuple[PathRule, ...] = ()
@@ -285,11 +382,18 @@ def reduction_check(product: Product, model: Model, red: Reduction) -> Check:
             model = model.replace(**dict(red.model_changes))
         at_limit = limit_product(product, red)
         base = red.becomes(at_limit)
+        if not isinstance(base, Product):
+            raise DeclarationError(
+                f"{name}: Reduction {red.name!r}: becomes returned {base!r} (a {type(base).__name__}), "
+                "not a Product; it must return the base product, whose reference gives the price"
+            )
         ref_model = red.reference_model(model, at_limit) if red.reference_model else model
         target = float(base.reference(ref_model))
         allowance = float(red.allowance(at_limit, model)) if callable(red.allowance) else float(red.allowance)
     except NoReference as exc:
         return Check(product=name, case=red.name, kind="reduction", error=f"no reference for the base case: {exc}")
+    except DeclarationError as exc:
+        return Check(product=name, case=red.name, kind="reduction", error=str(exc))
     except LimitcaseError as exc:
         return Check(product=name, case=red.name, kind="reduction", error=f"cannot build the limit case: {exc}")
     except Exception as exc:  # declaration code of the product failed
@@ -334,16 +438,25 @@ def checks_for(product: Product | type[Product], model: Model | None = None) -> 
     for rel in type(product).relations:
         try:
             out.extend(rel.checks(product, model))
+        except DeclarationError as exc:
+            out.append(Check(product=name, case=_relation_name(rel), kind="relation", error=str(exc)))
         except Exception as exc:
             out.append(
                 Check(
                     product=name,
-                    case=getattr(rel, "name", "") or type(rel).__name__,
+                    case=_relation_name(rel),
                     kind="relation",
                     error=f"the relation's declaration raised {type(exc).__name__}: {exc}",
                 )
             )
     return out
+
+
+def _relation_name(rel: Any) -> str:
+    try:
+        return str(getattr(rel, "case_name", "") or getattr(rel, "name", "") or type(rel).__name__)
+    except Exception:  # a case_name computed from a broken declaration
+        return type(rel).__name__
 
 
 def _num(v: Any) -> str:

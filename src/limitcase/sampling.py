@@ -1,6 +1,6 @@
 """Where the normals come from, and the estimator that goes with each source.
 
-The engine simulates paths in blocks of ``BLOCK`` paths (see :mod:`limitcase.engine`); a
+The engine simulates paths in blocks of ``BLOCK`` paths (see :mod:`limitcase.streams`); a
 *sampler* fills the block's normals ``z`` (shape ``(paths, dates, normals_per_step)``) and
 says how the block's per-path present values become an estimate with a standard error.
 The model never knows which sampler fed it.
@@ -34,7 +34,7 @@ Methods (``--method`` on ``check``)
 ``auto``
     Control variates, with Sobol points where they apply and antithetic pairs otherwise.
     Under Sobol points a control is applied to a check's statistic only when it explains
-    at least 90% of its variance on the pilot (``engine.SOBOL_CONTROL_R2``): a weak control
+    at least 90% of its variance on the pilot (``controls.SOBOL_CONTROL_R2``): a weak control
     can add more quasi-random error than it removes. Measured (``benchmarks/efficiency.py
     --others``): auto is the best method or within a factor 0.7 of it on an arithmetic
     Asian, a barrier, a digital, a lookback and a Bermudan.
@@ -65,6 +65,9 @@ from scipy.special import ndtri
 from scipy.stats import qmc
 
 from .errors import ParamError
+from .settings import METHODS
+from .moments import MomentAccumulator, Moments, ScrambleAccumulator, moment_summary
+from .streams import BLOCK, SOBOL_TAG
 
 __all__ = [
     "METHODS",
@@ -82,10 +85,12 @@ __all__ = [
     "SobolBridge",
     "BrownianBridge",
     "Moments",
+    "MomentAccumulator",
+    "ScrambleAccumulator",
+    "moment_summary",
+    "make_sampler",
+    "as_sampler",
 ]
-
-METHODS = ("auto", "plain", "antithetic", "control", "sobol", "control+antithetic", "control+sobol")
-"""Names accepted by ``--method`` and by ``method=`` of :func:`limitcase.engine.evaluate`."""
 
 SCRAMBLES = 32
 """Independent scrambles of a Sobol run: the standard error has ``SCRAMBLES - 1`` degrees of freedom."""
@@ -97,7 +102,6 @@ SOBOL_MAX_DIMENSION = 21201
 """The largest dimension :class:`scipy.stats.qmc.Sobol` supports (its direction numbers)."""
 
 SOBOL_BITS = 30
-_SOBOL_TAG = 0x50B0  # first word of the scrambles' spawn keys (4 words long: never a block stream's 3)
 _HALF_CELL = 0.5 ** (SOBOL_BITS + 1)
 
 
@@ -175,97 +179,6 @@ def resolve_method(
             warnings.warn(note, SamplingWarning, stacklevel=3)
         return MethodSpec("plain", spec.control), (note,)
     return spec, ()
-
-
-# ----------------------------------------------------------------------------------------
-# accumulated statistics
-
-
-@dataclass(frozen=True)
-class Moments:
-    """What an accumulator yields: paths, the mean of each column, ``cov`` scaled so that
-    ``cov / paths`` is the covariance of the mean as an estimator (for independent paths,
-    the per-path sample covariance), and the degrees of freedom of that covariance."""
-
-    paths: int
-    mean: np.ndarray
-    cov: np.ndarray
-    dof: float
-
-    @property
-    def cov_mean(self) -> np.ndarray:
-        return self.cov / self.paths
-
-
-def moment_summary(u: np.ndarray, paths: int) -> tuple[int, int, np.ndarray, np.ndarray]:
-    """``(paths, units, mean, co-moment matrix)`` of the replicate rows ``u`` of one block."""
-    nb = u.shape[0]
-    mb = u.mean(axis=0)
-    d = u - mb
-    return paths, nb, mb, np.einsum("ni,nj->ij", d, d)
-
-
-class MomentAccumulator:
-    """Running mean and co-moment matrix over independent replicates (paths, or pair means),
-    combined block by block by the pairwise update of Chan, Golub and LeVeque (1979),
-    "Updating formulae and a pairwise algorithm for computing sample variances": the
-    result depends only on the order of the blocks."""
-
-    def __init__(self) -> None:
-        self.paths = 0
-        self.n = 0
-        self.mean: np.ndarray | None = None
-        self.m2: np.ndarray | None = None
-
-    def add(self, summary: tuple[int, int, np.ndarray, np.ndarray]) -> None:
-        paths, nb, mb, m2b = summary
-        self.paths += paths
-        if nb == 0:
-            return
-        if self.n == 0 or self.mean is None or self.m2 is None:
-            self.n, self.mean, self.m2 = nb, mb, m2b
-            return
-        n = self.n + nb
-        delta = mb - self.mean
-        self.mean = self.mean + delta * (nb / n)
-        self.m2 = self.m2 + m2b + np.outer(delta, delta) * (self.n * nb / n)
-        self.n = n
-
-    def result(self) -> Moments:
-        if self.mean is None or self.m2 is None:
-            raise ValueError("no blocks accumulated")
-        if self.n > 1:
-            cov = self.m2 / (self.n - 1)
-            if self.paths != self.n:  # replicates are means of several paths
-                cov = cov * (self.paths / self.n)
-        else:
-            cov = np.full_like(self.m2, np.inf)
-        return Moments(self.paths, self.mean, cov, float(self.n - 1))
-
-
-class ScrambleAccumulator:
-    """Per-scramble sums; the estimate is the mean of the scramble means and its covariance
-    the sample covariance of the scramble means over the number of scrambles."""
-
-    def __init__(self, scrambles: int) -> None:
-        self.r = scrambles
-        self.sums: np.ndarray | None = None
-        self.counts = np.zeros(scrambles, dtype=np.int64)
-
-    def add(self, summary: tuple[np.ndarray, np.ndarray]) -> None:
-        counts, sums = summary
-        self.counts += counts
-        self.sums = sums.copy() if self.sums is None else self.sums + sums
-
-    def result(self) -> Moments:
-        if self.sums is None:
-            raise ValueError("no blocks accumulated")
-        means = self.sums / self.counts[:, None]
-        mean = means.mean(axis=0)
-        d = means - mean
-        paths = int(self.counts.sum())
-        cov = (d.T @ d) * (paths / ((self.r - 1) * self.r))
-        return Moments(paths, mean, cov, float(self.r - 1))
 
 
 # ----------------------------------------------------------------------------------------
@@ -455,7 +368,7 @@ def _sobol_engine(seed: np.random.SeedSequence, dim: int, r: int, position: int)
     if entry is None:
         if len(_ENGINES) >= _ENGINE_CACHE_LIMIT:
             _ENGINES.clear()
-        ss = np.random.SeedSequence(seed.entropy, spawn_key=tuple(seed.spawn_key) + (_SOBOL_TAG, 0, dim, r))
+        ss = np.random.SeedSequence(seed.entropy, spawn_key=tuple(seed.spawn_key) + (SOBOL_TAG, 0, dim, r))
         # a 128-bit integer drawn from the scramble's SeedSequence (scipy seeds its own PCG64
         # from it; cheaper than handing over a Generator, which scipy deep-copies)
         words = ss.generate_state(4, np.uint32)
@@ -493,8 +406,6 @@ class SobolBridge(Sampler):
         self.k = 1
 
     def bind(self, times: np.ndarray, normals_per_step: int, seed: np.random.SeedSequence) -> "SobolBridge":
-        from .engine import BLOCK
-
         block = self.block or BLOCK
         if block % self.scrambles:
             raise ParamError(f"scrambles={self.scrambles!r} must divide the block size {block}")

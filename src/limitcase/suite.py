@@ -35,18 +35,27 @@ from __future__ import annotations
 
 import math
 import multiprocessing
-import os
 import warnings
-from dataclasses import dataclass, field, replace
+from dataclasses import dataclass, replace
 from typing import Any, Callable, Sequence
 
-import numpy as np
-
-from .engine import BLOCK, DEFAULT_REGRESSION_PATHS, BlockResult, Case, Joint, Setup, case_key, coerce_seed
+from .case import BlockResult, Case, Setup
+from .checks import Check
+from .controls import gather_controls
 from .errors import LimitcaseError, ParamError
-from .reduce import Check
-from .sampling import METHODS, parse_method
-from .verdict import Outcome, detectable_bias, finalise, p_value
+from .sampling import parse_method
+from .settings import (
+    DEFAULT_ALPHA,
+    DEFAULT_MAX_PATHS,
+    DEFAULT_METHOD,
+    DEFAULT_PATHS,
+    DEFAULT_REGRESSION_PATHS,
+    DEFAULT_SEED,
+    default_workers,
+    validate_run,
+)
+from .streams import BLOCK, case_key
+from .verdict import Outcome, RunResult, check_scale, decide, detectable_bias, finalise
 
 __all__ = [
     "RunResult",
@@ -59,40 +68,15 @@ __all__ = [
     "DEFAULT_SEED",
     "DEFAULT_ALPHA",
     "DEFAULT_MAX_PATHS",
+    "DEFAULT_METHOD",
+    "decide",
 ]
 
-DEFAULT_PATHS = 100_000
-DEFAULT_SEED = 20261201
-DEFAULT_ALPHA = 0.01
-DEFAULT_MAX_PATHS = 4_000_000
 MAX_GROWTH = 8.0
 """A precision round multiplies a check's paths by at most this factor."""
 SAFETY = 1.05
 """A precision round aims 5% beyond the paths the standard error projects, so one round
 usually suffices."""
-
-
-@dataclass
-class RunResult:
-    """Every outcome of a run and the settings that produced them."""
-
-    outcomes: list[Outcome]
-    paths: int
-    seed: int
-    alpha: float
-    extra: dict = field(default_factory=dict)
-
-    @property
-    def summary(self) -> dict:
-        counts = {"pass": 0, "fail": 0, "error": 0}
-        for o in self.outcomes:
-            counts[o.verdict] = counts.get(o.verdict, 0) + 1
-        counts["total"] = len(self.outcomes)
-        return counts
-
-    @property
-    def ok(self) -> bool:
-        return all(o.verdict == "pass" for o in self.outcomes)
 
 
 @dataclass(frozen=True)
@@ -134,96 +118,6 @@ def parse_precision(value: "str | float | Precision") -> Precision:
     return Precision(number / 100.0 if relative else number, relative)
 
 
-def default_workers() -> int:
-    """The cores this process may use."""
-    try:
-        return max(1, len(os.sched_getaffinity(0)))
-    except (AttributeError, OSError):  # pragma: no cover - not Linux
-        return max(1, os.cpu_count() or 1)
-
-
-# ----------------------------------------------------------------------------------------
-# decisions
-
-
-FLOAT_FLOOR = 1e-10
-"""Standard errors below ``FLOAT_FLOOR`` times the check's price level are raised to it
-(zero included: a check with no sampling noise, a sure amount or an identity that holds on
-every path, is still compared through the last digits of block sums).
-A control variate equal to the statistic on every path (an arithmetic Asian with one
-fixing against the geometric one) leaves only rounding noise, ~1e-19, and the comparison
-of two closed forms would then fail on their last digits: no estimate is taken to be more
-precise than one part in 1e10 of the prices it compares."""
-
-
-def decide(check: Check, joint: Joint, seed: int) -> Outcome:
-    """The outcome of a priced check: path rules first, then the statistical test."""
-    est = joint.estimate(check.weights)
-    diff = est.value - check.target
-    messages = list(joint.notes)
-    scale = _scale(check, joint)
-    level = _rounding_scale(check, joint)
-    if level and est.stderr < FLOAT_FLOOR * level:
-        est = type(est)(est.value, FLOAT_FLOOR * level, est.paths, est.dof)
-        messages.append(f"standard error raised to the floating-point floor {FLOAT_FLOOR:g} x {level:.6g}")
-    pathwise_ok: bool | None = None
-    if check.rules:
-        pathwise_ok = all(r.violations == 0 for r in joint.rules)
-        for r in joint.rules:
-            if r.violations:
-                messages.append(
-                    f"path-by-path identity broken on {r.violations} of {joint.paths} paths "
-                    f"(worst residual {r.worst:.6g} at path {r.worst_path})"
-                )
-    dof = est.dof if math.isfinite(est.dof) else None
-    p = 0.0 if pathwise_ok is False else p_value(diff, est.stderr, check.sense, check.allowance, dof)
-    z = diff / est.stderr if est.stderr > 0 else (0.0 if diff == 0 else math.copysign(math.inf, diff))
-    if check.allowance:
-        messages.append(f"allowance {check.allowance:.4g}: {check.allowance_reason}")
-    return Outcome(
-        product=check.product,
-        case=check.case,
-        kind=check.kind,
-        verdict="pass",
-        value=est.value,
-        stderr=est.stderr,
-        reference=check.target,
-        difference=diff,
-        z=z,
-        p_value=p,
-        allowance=check.allowance,
-        allowance_reason=check.allowance_reason,
-        sense=check.sense,
-        message="; ".join(messages),
-        paths=joint.paths,
-        seed=seed,
-        method=joint.method_for(check.weights),
-        target_source=check.target_source,
-        note=check.note,
-        legs=tuple(p_.label() for p_ in check.legs),
-        pathwise_ok=pathwise_ok,
-        dof=dof,
-        scale=scale,
-        controls=joint.controls if joint.uses_controls(check.weights) else (),
-    )
-
-
-def _scale(check: Check, joint: Joint) -> float | None:
-    if check.target:
-        return abs(check.target)
-    prices = [abs(float(m)) for w, m in zip(check.weights, joint.mean) if w]
-    top = max(prices, default=0.0)
-    return top if top > 0 else None
-
-
-def _rounding_scale(check: Check, joint: Joint) -> float | None:
-    """The price level whose last digits rounding can move: the target, or the sum of the
-    weighted legs' prices when that is larger (an identity of large legs that cancel)."""
-    legs = sum(abs(w) * abs(float(m)) for w, m in zip(check.weights, joint.mean))
-    top = max(abs(check.target), legs)
-    return top if top > 0 else None
-
-
 # ----------------------------------------------------------------------------------------
 # the run: tasks, executors, rounds
 
@@ -256,8 +150,6 @@ def _case_for(check: Check, seed: int, method: str, regression_paths: int) -> Ca
     spec = parse_method(method)
     controls = None
     if spec is None or spec.control:
-        from .engine import gather_controls
-
         legs = [leg for w, leg in zip(check.weights, check.legs) if w]
         controls, notes = gather_controls(legs, check.model)
     else:
@@ -489,7 +381,7 @@ def _next_round(it: _Item, precision: Precision, alpha: float, m: int, max_paths
         return
     est = joint.estimate(check.weights)
     dof = est.dof if math.isfinite(est.dof) else None
-    target = precision.target(_scale(check, joint))
+    target = precision.target(check_scale(check, joint))
     bias = detectable_bias(est.stderr, check.sense, alpha, m, allowance=check.allowance, dof=dof)
     if bias <= target:
         it.status, it.done = "reached", True
@@ -546,20 +438,6 @@ def _outcome(it: _Item, seed: int, precision: Precision | None, alpha: float) ->
 # public entry points
 
 
-def _validate(paths: int, seed: int, alpha: float, method: str, max_paths: int, workers: int) -> None:
-    coerce_seed(seed)
-    if not isinstance(paths, (int, np.integer)) or isinstance(paths, bool) or paths < 2:
-        raise ParamError(f"paths={paths!r} must be an integer >= 2")
-    if not 0.0 < alpha < 1.0:
-        raise ParamError(f"alpha={alpha!r} must lie in (0, 1); it is the run's family-wise false-alarm rate")
-    if method not in METHODS:
-        raise ParamError(f"method={method!r} is not a sampling method; use one of {', '.join(METHODS)}")
-    if not isinstance(max_paths, (int, np.integer)) or max_paths < 2:
-        raise ParamError(f"max_paths={max_paths!r} must be an integer >= 2 (the path budget of each check)")
-    if not isinstance(workers, (int, np.integer)) or workers < 1:
-        raise ParamError(f"workers={workers!r} must be an integer >= 1")
-
-
 def run_check(
     check: Check,
     *,
@@ -567,7 +445,7 @@ def run_check(
     seed: int,
     regression_paths: int = DEFAULT_REGRESSION_PATHS,
     on_batch: Callable[[int], None] | None = None,
-    method: str = "plain",
+    method: str = DEFAULT_METHOD,
     precision: "str | float | Precision | None" = None,
     max_paths: int = DEFAULT_MAX_PATHS,
     alpha: float = DEFAULT_ALPHA,
@@ -578,7 +456,8 @@ def run_check(
     With ``precision``, the detectable bias is computed at ``alpha`` over a run of
     ``family`` checks (the Holm family the check will be part of).
     """
-    _validate(paths, seed, alpha, method, max_paths, 1)
+    validate_run(paths=paths, seed=seed, alpha=alpha, method=method, max_paths=max_paths, workers=1,
+                 regression_paths=regression_paths)
     prec = parse_precision(precision) if precision is not None else None
     if prec is None and check.error is None:
         base = dict(product=check.product, case=check.case, kind=check.kind, paths=paths, seed=seed,
@@ -588,7 +467,7 @@ def run_check(
             setup = case.setup()
             n = case.round_paths(paths)
             acc = case.accumulator()
-            buf = case._buffer(min(BLOCK, n))
+            buf = case.buffer(min(BLOCK, n))
             for b in range(Case.blocks_for(n)):
                 for r in case.blocks(setup, b, b + 1, n, buf):
                     acc.add(r)
@@ -612,7 +491,7 @@ def run_checks(
     alpha: float = DEFAULT_ALPHA,
     regression_paths: int = DEFAULT_REGRESSION_PATHS,
     progress: Callable[[int, int], None] | None = None,
-    method: str = "plain",
+    method: str = DEFAULT_METHOD,
     precision: "str | float | Precision | None" = None,
     max_paths: int = DEFAULT_MAX_PATHS,
     workers: int = 1,
@@ -632,8 +511,8 @@ def run_checks(
     progress
         ``progress(done, total)`` after each check finishes.
     method
-        Sampling method, one of :data:`limitcase.sampling.METHODS` (``"auto"``: control
-        variates with Sobol points or antithetic pairs).
+        Sampling method, one of :data:`limitcase.sampling.METHODS` (default ``"auto"``, as
+        on the command line: control variates with Sobol points or antithetic pairs).
     precision
         A detectable-bias target (``0.01`` or ``"0.5%"``, see :func:`parse_precision`):
         paths are added until each check reaches it or spends ``max_paths``.
@@ -642,7 +521,8 @@ def run_checks(
     workers
         Processes sharing the work (1: this one). The numbers do not depend on it.
     """
-    _validate(paths, seed, alpha, method, max_paths, workers)
+    validate_run(paths=paths, seed=seed, alpha=alpha, method=method, max_paths=max_paths, workers=workers,
+                 regression_paths=regression_paths)
     prec = parse_precision(precision) if precision is not None else None
     info: dict = {}
     outcomes = _execute(checks, paths=paths, seed=seed, alpha=alpha, regression_paths=regression_paths,

@@ -38,13 +38,16 @@ quantiles approximates the non-central t power (common practice).
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, replace
+from dataclasses import dataclass, field, replace
 from typing import Any, Sequence
 
 from scipy.stats import norm
 from scipy.stats import t as student_t
 
-__all__ = ["Outcome", "p_value", "holm", "detectable_bias", "finalise", "POWER"]
+from .checks import Check
+from .estimates import Joint
+
+__all__ = ["Outcome", "RunResult", "decide", "check_scale", "FLOAT_FLOOR", "p_value", "holm", "detectable_bias", "finalise", "POWER"]
 
 POWER = 0.9
 
@@ -91,6 +94,29 @@ class Outcome:
             if isinstance(v, float) and not math.isfinite(v):
                 d[k] = None if math.isnan(v) else (1e308 if v > 0 else -1e308)
         return d
+
+
+@dataclass
+class RunResult:
+    """Every outcome of a run and the settings that produced them."""
+
+    outcomes: list[Outcome]
+    paths: int
+    seed: int
+    alpha: float
+    extra: dict = field(default_factory=dict)
+
+    @property
+    def summary(self) -> dict:
+        counts = {"pass": 0, "fail": 0, "error": 0}
+        for o in self.outcomes:
+            counts[o.verdict] = counts.get(o.verdict, 0) + 1
+        counts["total"] = len(self.outcomes)
+        return counts
+
+    @property
+    def ok(self) -> bool:
+        return all(o.verdict == "pass" for o in self.outcomes)
 
 
 class _T:
@@ -204,3 +230,87 @@ def finalise(outcomes: Sequence[Outcome], alpha: float) -> list[Outcome]:
             message=message,
         )
     return out
+
+
+# ----------------------------------------------------------------------------------------
+# decisions
+
+
+FLOAT_FLOOR = 1e-10
+"""Standard errors below ``FLOAT_FLOOR`` times the check's price level are raised to it
+(zero included: a check with no sampling noise, a sure amount or an identity that holds on
+every path, is still compared through the last digits of block sums).
+A control variate equal to the statistic on every path (an arithmetic Asian with one
+fixing against the geometric one) leaves only rounding noise, ~1e-19, and the comparison
+of two closed forms would then fail on their last digits: no estimate is taken to be more
+precise than one part in 1e10 of the prices it compares."""
+
+
+def decide(check: Check, joint: Joint, seed: int) -> Outcome:
+    """The outcome of a priced check: path rules first, then the statistical test."""
+    est = joint.estimate(check.weights)
+    diff = est.value - check.target
+    messages = list(joint.notes)
+    scale = check_scale(check, joint)
+    level = _rounding_scale(check, joint)
+    if level and est.stderr < FLOAT_FLOOR * level:
+        est = type(est)(est.value, FLOAT_FLOOR * level, est.paths, est.dof)
+        messages.append(f"standard error raised to the floating-point floor {FLOAT_FLOOR:g} x {level:.6g}")
+    pathwise_ok: bool | None = None
+    if check.rules:
+        pathwise_ok = all(r.violations == 0 for r in joint.rules)
+        for r in joint.rules:
+            if r.violations:
+                messages.append(
+                    f"path-by-path identity broken on {r.violations} of {joint.paths} paths "
+                    f"(worst residual {r.worst:.6g} at path {r.worst_path})"
+                )
+    dof = est.dof if math.isfinite(est.dof) else None
+    p = 0.0 if pathwise_ok is False else p_value(diff, est.stderr, check.sense, check.allowance, dof)
+    z = diff / est.stderr if est.stderr > 0 else (0.0 if diff == 0 else math.copysign(math.inf, diff))
+    if check.allowance:
+        messages.append(f"allowance {check.allowance:.4g}: {check.allowance_reason}")
+    return Outcome(
+        product=check.product,
+        case=check.case,
+        kind=check.kind,
+        verdict="pass",
+        value=est.value,
+        stderr=est.stderr,
+        reference=check.target,
+        difference=diff,
+        z=z,
+        p_value=p,
+        allowance=check.allowance,
+        allowance_reason=check.allowance_reason,
+        sense=check.sense,
+        message="; ".join(messages),
+        paths=joint.paths,
+        seed=seed,
+        method=joint.method_for(check.weights),
+        target_source=check.target_source,
+        note=check.note,
+        legs=tuple(p_.label() for p_ in check.legs),
+        pathwise_ok=pathwise_ok,
+        dof=dof,
+        scale=scale,
+        controls=joint.controls if joint.uses_controls(check.weights) else (),
+    )
+
+
+def check_scale(check: Check, joint: Joint) -> float | None:
+    """The price scale of a check, for relative precision and detectable bias: ``|target|``,
+    or for a target of 0 the largest price among the legs it weighs (never the difference)."""
+    if check.target:
+        return abs(check.target)
+    prices = [abs(float(m)) for w, m in zip(check.weights, joint.mean) if w]
+    top = max(prices, default=0.0)
+    return top if top > 0 else None
+
+
+def _rounding_scale(check: Check, joint: Joint) -> float | None:
+    """The price level whose last digits rounding can move: the target, or the sum of the
+    weighted legs' prices when that is larger (an identity of large legs that cancel)."""
+    legs = sum(abs(w) * abs(float(m)) for w, m in zip(check.weights, joint.mean))
+    top = max(abs(check.target), legs)
+    return top if top > 0 else None

@@ -1,5 +1,7 @@
 """The closed-form references share no code with the Monte Carlo side (design invariant 5):
-their modules import only numpy, scipy, math, typing helpers, limitcase.errors and each other."""
+their modules import only numpy, scipy, math, typing helpers, limitcase.errors and each other.
+The Fourier module is among them: it takes a model's characteristic function as a callable
+and imports nothing of the models."""
 
 from __future__ import annotations
 
@@ -9,9 +11,9 @@ import inspect
 import pytest
 
 import limitcase.references as refs
-from limitcase.references import asians, barriers, blackscholes, digitals, exotics, lookbacks
+from limitcase.references import asians, barriers, blackscholes, digitals, exotics, fourier, lookbacks
 
-CLOSED_FORM_MODULES = [blackscholes, digitals, barriers, asians, lookbacks, exotics]
+CLOSED_FORM_MODULES = [blackscholes, digitals, barriers, asians, lookbacks, exotics, fourier]
 ALLOWED_ROOTS = {"numpy", "scipy", "math", "typing", "__future__"}
 ALLOWED_LIMITCASE = {"limitcase.errors"} | {m.__name__ for m in CLOSED_FORM_MODULES}
 

@@ -5,6 +5,7 @@ from .dividends import DividendBlackScholes
 from .gbm import BlackScholes, MultiBlackScholes
 from .heston import HESTON_SCHEMES, Heston
 from .merton import Merton
+from .localvol import LocalVol
 
 __all__ = [
     "Model",
@@ -15,5 +16,6 @@ __all__ = [
     "Heston",
     "HESTON_SCHEMES",
     "Merton",
+    "LocalVol",
     "DividendBlackScholes",
 ]

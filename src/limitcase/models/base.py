@@ -16,7 +16,7 @@ from typing import Any, ClassVar
 
 import numpy as np
 
-from ..errors import ModelError
+from ..errors import ModelError, NoReference
 from ..params import Parametrised
 
 __all__ = ["Model", "Simulated", "Degeneration"]
@@ -103,6 +103,23 @@ class Model(Parametrised):
                 f"(paths, {times.size}, {k})"
             )
         return self._simulate(times, z, rng)
+
+    def characteristic_function(self, u: Any, t: float) -> np.ndarray:
+        r"""The characteristic function of the log-price, :math:`\mathbb E[e^{iu\ln S_t}]`,
+        under the pricing measure, for a complex array ``u`` and a time ``t > 0``.
+
+        Optional, for one-asset models. A model that states it gets trusted prices of every
+        European payoff of :math:`S_T` (calls, puts, digitals, forwards) by the Fourier
+        method of :func:`limitcase.references.fourier_price`, computed from its parameters
+        alone, not from its simulation. It must hold for complex ``u`` with
+        :math:`-1 \le \operatorname{Im} u \le 0` (moments of order 0 to 1 of
+        :math:`S_t`) and return an array of the shape of ``u``; :math:`\varphi(-i)` must be
+        the forward :math:`S_0e^{(r-q)t}`. The default raises NoReference: the model has none.
+        """
+        raise NoReference(
+            f"{type(self).__name__} does not state the characteristic function of its log-price; "
+            f"define characteristic_function(u, t) returning E[exp(i u log S_t)] to get Fourier references"
+        )
 
     def label(self) -> str:
         return repr(self)

@@ -43,6 +43,13 @@ class BlackScholes(Model):
         np.exp(z, out=z)
         return Simulated(s=z, step_var=(self.vol**2 * dt)[None, :, None])
 
+    def characteristic_function(self, u: Any, t: float) -> np.ndarray:
+        r""":math:`\mathbb E[e^{iu\ln S_t}] = \exp\big(iu(\ln S_0 + (r - q - \sigma^2/2)t)
+        - \sigma^2u^2t/2\big)`: :math:`\ln S_t` is normal (Black and Scholes 1973)."""
+        u = np.asarray(u, dtype=complex)
+        mean = math.log(self.spot) + (self.rate - self.dividend - 0.5 * self.vol**2) * t
+        return np.exp(1j * u * mean - 0.5 * self.vol**2 * t * u * u)
+
 
 class MultiBlackScholes(Model):
     """Several assets, each geometric Brownian motion, with correlated Brownian motions.

@@ -14,7 +14,7 @@ engine hands every product of a case the same generator, so they see the same ju
 from __future__ import annotations
 
 import math
-from typing import ClassVar
+from typing import Any, ClassVar
 
 import numpy as np
 
@@ -96,6 +96,21 @@ class Merton(Model):
     def jump_compensator(self) -> float:
         r""":math:`\bar k = E[e^J] - 1 = e^{\mu_J + \delta^2/2} - 1`."""
         return math.expm1(self.jump_mean + 0.5 * self.jump_vol**2)
+
+    def characteristic_function(self, u: Any, t: float) -> np.ndarray:
+        r""":math:`\mathbb E[e^{iu\ln S_t}]` (Merton 1976): the Gaussian part times the
+        compound Poisson part,
+
+        .. math::
+
+            \exp\Big(iu\big(\ln S_0 + (r - q - \lambda\bar k - \tfrac12\sigma^2)t\big)
+            - \tfrac12\sigma^2u^2t + \lambda t\big(e^{iu\mu_J - \delta^2u^2/2} - 1\big)\Big).
+        """
+        u = np.asarray(u, dtype=complex)
+        drift = math.log(self.spot) + (self.rate - self.dividend - self.intensity * self.jump_compensator
+                                       - 0.5 * self.vol**2) * t
+        jumps = self.intensity * t * np.expm1(1j * u * self.jump_mean - 0.5 * self.jump_vol**2 * u * u)
+        return np.exp(1j * u * drift - 0.5 * self.vol**2 * t * u * u + jumps)
 
     def _simulate(self, times: np.ndarray, z: np.ndarray, rng: np.random.Generator) -> Simulated:
         dt = np.diff(times, prepend=0.0)

@@ -66,6 +66,7 @@ from limitcase.references.heston import heston_charfn, heston_price
 from limitcase.references.lattice import lattice_price, lattice_price_dividends, lattice_price_payoff
 from limitcase.references.merton import merton_charfn, merton_jump_price
 from limitcase.references.quadrature import european_by_quadrature
+from limitcase.references.fourier import FOURIER_KINDS, FOURIER_METHOD, FOURIER_TOL, fourier_price
 
 __all__ += [
     # lattice
@@ -80,4 +81,9 @@ __all__ += [
     # merton
     "merton_charfn",
     "merton_jump_price",
+    # fourier (any model's characteristic function)
+    "FOURIER_KINDS",
+    "FOURIER_METHOD",
+    "FOURIER_TOL",
+    "fourier_price",
 ]

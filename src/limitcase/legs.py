@@ -1,0 +1,128 @@
+"""Products placed on a case's common grid, what their payoffs see, and their validated
+present values.
+
+A leg reads the shared simulated paths at its own dates through a read-only view (a payoff
+must not write into paths other legs read); its cash flows are validated (shape, finite,
+non-negative where the product says so, payment times) and discounted at the model's
+short rate. A payoff that raises or returns something invalid is a
+:class:`~limitcase.errors.PayoffError` for that check only.
+"""
+
+from __future__ import annotations
+
+import math
+from typing import Any, Callable, Sequence
+
+import numpy as np
+
+from .errors import ParamError, PayoffError
+from .models.base import Model, Simulated
+from .product import Cashflows, Observed, Product
+
+__all__ = ["Leg", "present_values", "grid_of"]
+
+
+def grid_of(products: Sequence[Product]) -> np.ndarray:
+    """The union of the products' observation dates."""
+    return np.unique(np.concatenate([p.validated_dates() for p in products]))
+
+
+class Leg:
+    """A product placed on the common grid."""
+
+    def __init__(self, product: Product, grid: np.ndarray, model: Model) -> None:
+        self.product = product
+        self.name = type(product).__name__
+        self.dates = product.validated_dates()
+        self.idx = np.searchsorted(grid, self.dates)
+        n = len(self.idx)
+        full = n == len(grid)
+        contiguous = n > 0 and np.all(np.diff(self.idx) == 1)
+        self.sel: Any = slice(None) if full else (slice(self.idx[0], self.idx[-1] + 1) if contiguous else self.idx)
+        if product.multi_asset:
+            if product.n_assets != model.n_assets:
+                raise ParamError(
+                    f"{self.name} reads {product.n_assets} assets but the model "
+                    f"{type(model).__name__} simulates {model.n_assets}"
+                )
+        elif model.n_assets != 1:
+            raise ParamError(
+                f"{self.name} is a single-asset product but the model simulates {model.n_assets} assets"
+            )
+        self.s0 = model.initial() if product.multi_asset else float(model.initial()[0])
+        self.dividend = model.dividend_yields() if product.multi_asset else float(model.dividend_yields()[0])
+
+    def observe(self, sim: Simulated, rate: float, uniforms: Callable[[], np.ndarray] | None = None) -> Observed:
+        s = sim.s[:, self.sel, :]
+        if not self.product.multi_asset:
+            s = s[:, :, 0]
+        s = s.view()
+        s.flags.writeable = False  # a payoff must not write into shared paths
+        idx = self.idx
+
+        def step_var() -> np.ndarray:
+            cum = np.cumsum(sim.step_var, axis=1)[:, idx, :]
+            v = np.diff(cum, axis=1, prepend=0.0)
+            return v if self.product.multi_asset else v[:, :, 0]
+
+        def leg_uniforms() -> np.ndarray:
+            u = uniforms()[:, idx, :]  # type: ignore[misc]
+            u.flags.writeable = False
+            return u if self.product.multi_asset else u[:, :, 0]
+
+        return Observed(
+            self.dates, s, self.s0, rate, step_var, self.dividend, leg_uniforms if uniforms is not None else None
+        )
+
+
+def present_values(leg: Leg, obs: Observed, rate: float, policy: Any) -> np.ndarray:
+    """Per-path present value of one product's cash flows, validated."""
+    name = leg.name
+    n = obs.paths
+    try:
+        if policy is not None:
+            out: Any = policy.cashflows(leg.product, obs)
+        else:
+            out = leg.product.payoff(obs)
+    except PayoffError:
+        raise
+    except Exception as exc:  # the product's own code failed: report it, keep the run going
+        raise PayoffError(f"{name}.payoff raised {type(exc).__name__}: {exc}") from exc
+    if isinstance(out, Cashflows):
+        amount = np.asarray(out.amount, dtype=float)
+        if amount.ndim not in (1, 2) or amount.shape[0] != n:
+            raise PayoffError(
+                f"{name}.payoff returned Cashflows.amount of shape {amount.shape}; expected ({n},) or ({n}, k)"
+            )
+        try:
+            time = np.broadcast_to(np.asarray(out.time, dtype=float), amount.shape)
+        except ValueError as exc:
+            raise PayoffError(f"{name}.payoff: Cashflows.time does not broadcast to amount {amount.shape}") from exc
+        if not np.all(np.isfinite(time)) or np.any(time < 0):
+            raise PayoffError(f"{name}.payoff: payment times must be finite and >= 0")
+        disc = np.exp(-rate * time)
+    else:
+        amount = np.asarray(out, dtype=float)
+        if amount.shape == (n,):
+            disc = math.exp(-rate * obs.t[-1])
+        elif amount.shape == (n, len(obs.t)):
+            disc = np.exp(-rate * obs.t)[None, :]
+        else:
+            raise PayoffError(
+                f"{name}.payoff returned shape {amount.shape}; expected ({n},) paid at the last date, "
+                f"({n}, {len(obs.t)}) paid at each date, or Cashflows"
+            )
+    bad = ~np.isfinite(amount)
+    if bad.any():
+        rows = np.flatnonzero(bad.reshape(n, -1).any(axis=1))
+        raise PayoffError(
+            f"{name}.payoff returned NaN or inf on {rows.size} of {n} paths (first at path {rows[0]})"
+        )
+    if leg.product.nonnegative and amount.min(initial=0.0) < -1e-12:
+        rows = np.flatnonzero((amount < -1e-12).reshape(n, -1).any(axis=1))
+        raise PayoffError(
+            f"{name} pays a negative amount ({amount.min():.6g}) on {rows.size} of {n} paths; "
+            "an option cannot (set nonnegative = False on products that can)"
+        )
+    pv = amount * disc
+    return pv if pv.ndim == 1 else pv.sum(axis=1)

@@ -1,0 +1,221 @@
+"""Every default of a run, in one place, and the one validation of run arguments.
+
+The library (:func:`limitcase.suite.run_checks`, :mod:`limitcase.testing`), the command
+line (its options and their help texts), the pytest plugin, the dossier and the mutation
+runner read their defaults from here, so a library caller and a command-line user get the
+same run unless they ask otherwise. :func:`validate_run` checks a run's arguments once,
+before any work, and names the argument, the value and what is allowed.
+:func:`reproduce_command` builds the command line that reproduces a run or one check.
+"""
+
+from __future__ import annotations
+
+import math
+import os
+import shlex
+from typing import Any, Sequence
+
+import numpy as np
+
+from .errors import ParamError
+from .streams import BLOCK, coerce_seed
+
+__all__ = [
+    "DEFAULT_PATHS",
+    "DEFAULT_SEED",
+    "DEFAULT_ALPHA",
+    "DEFAULT_METHOD",
+    "ENGINE_METHOD",
+    "DEFAULT_MAX_PATHS",
+    "DEFAULT_REGRESSION_PATHS",
+    "DEFAULT_BATCH",
+    "DEFAULT_WORKERS",
+    "MIN_COMMAND_PATHS",
+    "MIN_REGRESSION_PATHS",
+    "MIN_MAX_PATHS",
+    "REPORT_PATHS",
+    "REPORT_POINTS",
+    "REPORT_OUTPUT",
+    "MUTATE_QUICK_PATHS",
+    "MUTATE_EQUIVALENCE_PATHS",
+    "MUTATE_EQUIVALENCE_REGRESSION_PATHS",
+    "REPRICE_MODEL",
+    "REPRICE_WEIGHTING",
+    "REPRICE_STARTS",
+    "REPRICE_STEPS_PER_YEAR",
+    "REPRICE_TOLERANCE_VOL",
+    "METHODS",
+    "default_workers",
+    "validate_run",
+    "reproduce_command",
+]
+
+METHODS = ("auto", "plain", "antithetic", "control", "sobol", "control+antithetic", "control+sobol")
+"""Sampling methods accepted by ``--method`` and by ``method=`` of :func:`limitcase.engine.evaluate`
+(what each does: :mod:`limitcase.sampling`)."""
+
+DEFAULT_PATHS = 100_000
+"""Monte Carlo paths per check (``--paths``; the first round under ``--precision``)."""
+
+DEFAULT_SEED = 20261201
+"""Seed of a run (``--seed``); every check draws its own streams from it."""
+
+DEFAULT_ALPHA = 0.01
+"""Family-wise false-alarm rate of a run (``--alpha``), held by Holm's correction."""
+
+DEFAULT_METHOD = "auto"
+"""Sampling method (``--method``): control variates with Sobol points where they apply and
+antithetic pairs otherwise (see :mod:`limitcase.sampling`)."""
+
+ENGINE_METHOD = "plain"
+"""Sampling method of the engine's own entry points (:func:`limitcase.engine.evaluate`,
+:func:`limitcase.engine.price`, :class:`limitcase.case.Case`) when none is given: plain
+pseudo-random paths, the building block the audits and sweeps ask for by name. Runs of
+checks (the library's ``run_checks``, the command line, the plugin, ``limitcase.testing``)
+use :data:`DEFAULT_METHOD`."""
+
+DEFAULT_MAX_PATHS = 4_000_000
+"""Path budget of each check under ``--precision`` (``--max-paths``)."""
+
+DEFAULT_REGRESSION_PATHS = 1 << 16
+"""Pilot paths on which Longstaff-Schwartz policies are fitted (``--regression-paths``)."""
+
+DEFAULT_BATCH = BLOCK
+"""Paths between progress reports of :func:`limitcase.engine.evaluate`."""
+
+DEFAULT_WORKERS = None
+"""Worker processes of a command-line run: ``None`` means every core this process may use
+(:func:`default_workers`); the library runs in one process unless told otherwise."""
+
+MIN_COMMAND_PATHS = 100
+"""The fewest paths the command line and the pytest plugin accept per check."""
+
+MIN_REGRESSION_PATHS = 1000
+"""The fewest Longstaff-Schwartz pilot paths the command line accepts."""
+
+MIN_MAX_PATHS = 100
+"""The smallest ``--max-paths`` the command line accepts."""
+
+REPORT_PATHS = 16_384
+"""Default paths of a report (``report --paths``; a power of two, as Sobol points want):
+clear pictures, and the whole catalogue in a minute or two on two cores."""
+
+REPORT_POINTS = 7
+"""Finite sweep points before each limit in the dossier (``report --points``; the limit itself
+is added)."""
+
+REPORT_OUTPUT = "limitcase-report"
+"""Folder the dossier is written to (``report --output``)."""
+
+MUTATE_QUICK_PATHS = 10_000
+"""Paths per check in the mutation run's first pass; survivors run again with the full budget."""
+
+MUTATE_EQUIVALENCE_PATHS = 4 * BLOCK
+"""Random paths per parameter point on which a mutant is compared with the original."""
+
+MUTATE_EQUIVALENCE_REGRESSION_PATHS = 2 * BLOCK
+"""Pilot paths of the Longstaff-Schwartz fits in the equivalence runs (mutant and original
+are fitted on the same pilot, so identical exercise values give identical policies)."""
+
+REPRICE_MODEL = "heston"
+"""Model calibrated by ``reprice`` (``--model``)."""
+
+REPRICE_WEIGHTING = "vega"
+"""Weighting of the calibration's residuals (``reprice --weighting``)."""
+
+REPRICE_STARTS = 6
+"""Starting points of the calibration's local fits (``reprice --starts``)."""
+
+REPRICE_STEPS_PER_YEAR = 32
+"""Heston scheme steps per year in the reprice (``reprice --steps-per-year``). The QE
+scheme's bias at 16 steps a year was below 0.7 standard errors of 200,000 paths on every
+strike of the demo surface (T = 0.3 and 2); 32 halves the step again."""
+
+REPRICE_TOLERANCE_VOL = 0.5
+"""Declared tolerance (implied-volatility points) of a quote without bid-ask (``reprice --tolerance``)."""
+
+
+def default_workers() -> int:
+    """The cores this process may use."""
+    try:
+        return max(1, len(os.sched_getaffinity(0)))
+    except (AttributeError, OSError):  # pragma: no cover - not Linux
+        return max(1, os.cpu_count() or 1)
+
+
+def _is_int(x: Any) -> bool:
+    return isinstance(x, (int, np.integer)) and not isinstance(x, bool)
+
+
+def validate_run(
+    *,
+    paths: Any = DEFAULT_PATHS,
+    seed: Any = DEFAULT_SEED,
+    alpha: Any = DEFAULT_ALPHA,
+    method: Any = DEFAULT_METHOD,
+    max_paths: Any = DEFAULT_MAX_PATHS,
+    workers: Any = 1,
+    regression_paths: Any = DEFAULT_REGRESSION_PATHS,
+    min_paths: int = 2,
+) -> None:
+    """Check a run's arguments before any work; raise :class:`ParamError` naming the first
+    bad one, its value and what is allowed.
+
+    ``min_paths`` is the fewest paths per check allowed (2 for the library, where a
+    standard error needs two paths; :data:`MIN_COMMAND_PATHS` for the command line and the
+    pytest plugin).
+    """
+    coerce_seed(seed)
+    if not _is_int(paths) or paths < min_paths:
+        raise ParamError(f"paths={paths!r} must be an integer >= {min_paths}")
+    if not isinstance(alpha, (int, float, np.floating)) or isinstance(alpha, bool) or not 0.0 < alpha < 1.0:
+        raise ParamError(f"alpha={alpha!r} must lie in (0, 1); it is the run's family-wise false-alarm rate")
+    if method not in METHODS:
+        raise ParamError(f"method={method!r} is not a sampling method; use one of {', '.join(METHODS)}")
+    if not _is_int(max_paths) or max_paths < 2:
+        raise ParamError(f"max_paths={max_paths!r} must be an integer >= 2 (the path budget of each check)")
+    if not _is_int(workers) or workers < 1:
+        raise ParamError(f"workers={workers!r} must be an integer >= 1")
+    if not _is_int(regression_paths) or regression_paths < 2:
+        raise ParamError(f"regression_paths={regression_paths!r} must be an integer >= 2 "
+                         "(the Longstaff-Schwartz pilot paths)")
+
+
+def reproduce_command(
+    command: str,
+    paths_in: Sequence[str] = (),
+    *,
+    seed: int | None,
+    paths: int | None,
+    select: str | None = None,
+    method: str | None = None,
+    precision: Any = None,
+    max_paths: int | None = None,
+    model: str | None = None,
+    alpha: float | None = None,
+) -> str:
+    """The command line that reproduces a run (or, with ``select``, one of its checks).
+
+    Options equal to their defaults are left out (``--method auto``, ``--alpha 0.01``);
+    ``seed`` and ``paths`` are always written when given (``None`` leaves them out, for a
+    renderer that appends them per check). ``max_paths`` is written only with
+    ``precision``, where it applies. Arguments are quoted for a POSIX shell (the selection always, in single quotes).
+    """
+    parts = ["limitcase", command, *(shlex.quote(str(p)) for p in paths_in)]
+    if model is not None:
+        parts += ["--model", shlex.quote(str(model))]
+    if seed is not None:
+        parts += ["--seed", str(seed)]
+    if paths is not None:
+        parts += ["--paths", str(paths)]
+    if alpha is not None and not math.isclose(float(alpha), DEFAULT_ALPHA):
+        parts += ["--alpha", f"{float(alpha):g}"]
+    if method is not None and method != DEFAULT_METHOD:
+        parts += ["--method", str(method)]
+    if precision is not None:
+        parts += ["--precision", shlex.quote(str(precision))]
+        if max_paths is not None:
+            parts += ["--max-paths", str(max_paths)]
+    if select is not None:
+        parts += ["--select", "'" + select.replace("'", "'\\''") + "'"]
+    return " ".join(parts)
