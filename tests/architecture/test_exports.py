@@ -30,7 +30,6 @@ def _imported_names() -> dict[str, dict[str, list[str]]]:
 
 
 _PENDING = {
-    f"{PKG}.references": "references/__init__.py lists heston_price and merton_jump_price in __all__",
     f"{PKG}.references.blackscholes": "references/ lists the helpers its modules share in __all__ (or a helpers module)",
     f"{PKG}.references.quadrature": "references/ lists the helpers its modules share in __all__ (or a helpers module)",
     f"{PKG}.report.dossier": "commands/report.py reads REPORT_PATHS from settings; load_mutations in the dossier's __all__",

@@ -143,10 +143,6 @@ def test_report_imports_nothing_that_prices(module):
 MAX_LINES = 600
 
 _SIZE_PENDING = {
-    f"{PKG}.mutate": "mutate.py becomes the mutate/ package",
-    f"{PKG}.audits": "audits.py becomes the audits/ package",
-    f"{PKG}.calibrate": "calibrate.py becomes the calibrate/ package (its Heston pricer merged into references/)",
-    f"{PKG}.quotes": "quotes.py is split with the calibrate/ package",
     f"{PKG}.report.dossier": "the dossier's computing moves out of report/",
 }
 
@@ -172,8 +168,6 @@ def test_no_module_outside_references_is_over_600_lines(module):
 _DEFAULT_NAME = re.compile(r"^(?!ROLE_)(DEFAULT_[A-Z0-9_]+|[A-Z0-9_]*_(PATHS|SEED|ALPHA|POINTS|WORKERS|METHOD))$")
 
 _DEFAULTS_PENDING = {
-    f"{PKG}.mutate": "mutate/ reads its path counts from limitcase.settings",
-    f"{PKG}.calibrate": "calibrate/ reads its defaults from limitcase.settings",
     f"{PKG}.sweep": "sweep.py reads REPORT_POINTS from limitcase.settings",
     f"{PKG}.report.dossier": "the dossier reads REPORT_PATHS from limitcase.settings",
 }

@@ -16,7 +16,8 @@ import pytest
 from scipy import integrate
 from scipy.stats import norm
 
-from limitcase.audits import OPTION_MATURITY, audit_degenerations, audit_martingale
+from limitcase.audits import audit_degenerations, audit_martingale
+from limitcase.audits.constants import OPTION_MATURITY
 from limitcase.engine import price
 from limitcase.errors import ParamError
 from limitcase.models import BlackScholes, DividendBlackScholes

@@ -41,10 +41,10 @@ from ..params import Param
 from .base import Degeneration, Model, Simulated
 from .gbm import BlackScholes
 
-__all__ = ["DividendBlackScholes", "proportional_factor"]
+__all__ = ["AUDIT_HORIZON", "DividendBlackScholes", "proportional_factor"]
 
 AUDIT_HORIZON = 1.0
-"""Maturity in years of the option the degeneration audit prices (``audits.OPTION_MATURITY``,
+"""Maturity in years of the option the degeneration audit prices (``limitcase.audits.constants.OPTION_MATURITY``,
 checked equal by the tests): the proportional dividends paid within it scale the spot."""
 
 
