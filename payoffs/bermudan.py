@@ -43,6 +43,8 @@ from limitcase.errors import NoReference
 from limitcase.models import DividendBlackScholes
 from limitcase.references import black_scholes, lattice_price, lattice_price_dividends
 
+from limitcase.references.schedules import equal_steps
+
 from ._common import bs_inputs, even_dates, own_closed_form
 from .vanilla import EuropeanCall, EuropeanPut
 
@@ -225,7 +227,7 @@ class BermudanPut(_Bermudan):
         return np.maximum(self.strike - obs.s, 0.0)
 
     def reference(self, model):
-        return self._lattice(model, "put", self.exercise_dates())
+        return self._lattice(model, "put", equal_steps(self.maturity, self.exercises))  # from the terms
 
     def reference_source(self) -> str:
         return "lattice_price, Bermudan put on the same dates"
@@ -255,7 +257,7 @@ class BermudanCall(_Bermudan):
         return np.maximum(obs.s - self.strike, 0.0)
 
     def reference(self, model):
-        return self._lattice(model, "call", self.exercise_dates())
+        return self._lattice(model, "call", equal_steps(self.maturity, self.exercises))  # from the terms
 
     def reference_source(self) -> str:
         return "lattice_price, Bermudan call on the same dates"
