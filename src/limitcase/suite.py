@@ -55,7 +55,7 @@ from .settings import (
     validate_run,
 )
 from .streams import BLOCK, case_key
-from .verdict import Outcome, RunResult, check_scale, decide, detectable_bias, finalise
+from .verdict import Outcome, RunResult, check_scale, decide, detectable_bias, finalise, skip_outcome
 
 __all__ = [
     "RunResult",
@@ -285,7 +285,7 @@ def _execute(
             progress(finished, total)
 
     for item in run.items:
-        if item.check.error is not None:
+        if item.check.error is not None or item.check.skip is not None:
             item.error = item.check.error
             finish(item)
             continue
@@ -410,6 +410,8 @@ def _outcome(it: _Item, seed: int, precision: Precision | None, alpha: float) ->
     check = it.check
     base = dict(product=check.product, case=check.case, kind=check.kind, paths=it.acc.paths if it.acc else 0,
                 seed=seed, note=check.note)
+    if check.error is None and check.skip is not None:
+        return skip_outcome(check, seed)
     if it.error is not None:
         legs = tuple(p.label() for p in check.legs) if it.case is not None else ()
         method = it.case.method if it.case is not None else "plain"
@@ -459,6 +461,8 @@ def run_check(
     validate_run(paths=paths, seed=seed, alpha=alpha, method=method, max_paths=max_paths, workers=1,
                  regression_paths=regression_paths)
     prec = parse_precision(precision) if precision is not None else None
+    if check.error is None and check.skip is not None:
+        return skip_outcome(check, seed)
     if prec is None and check.error is None:
         base = dict(product=check.product, case=check.case, kind=check.kind, paths=paths, seed=seed,
                     note=check.note)

@@ -78,12 +78,15 @@ def test_parse_precision():
 def test_cli_precision_and_method(tmp_path):
     out = tmp_path / "run.json"
     r = CliRunner().invoke(main, ["check", *FILES, "--select", "EuropeanCall/zero_strike", "--select", "BermudanPut/one_ex",
+                                  "--select", "BermudanCall/no_dividend",
                                   "--paths", str(BLOCK), "--precision", "1%", "--max-paths", str(8 * BLOCK),
                                   "--workers", "1", "--json", str(out)])
     assert r.exit_code == 0, r.output
     assert "smallest bias each check detects with 90% power" in r.output
     assert "control+" in r.output and "reached" in r.output
     doc = json.loads(out.read_text())
+    zero = next(c for c in doc["cases"] if c["case"] == "zero_strike")  # pays S(T): no tautological control
+    assert zero["controls"] == [] and "not applied" in zero["message"]
     assert doc["settings"]["precision"] == "1%" and doc["settings"]["method"] == "auto"
     for case in doc["cases"]:
         assert case["precision_status"] in ("reached", "budget")

@@ -1,7 +1,7 @@
 """The JSON record of a run: ``{"tool", "kind", "settings", "cases": [...], "summary"}``.
 
 Each entry of ``cases`` holds at least ``product``, ``case``, ``kind`` ("reduction",
-"relation", "audit", "reprice"), ``verdict`` ("pass", "fail", "error"), ``value``,
+"relation", "audit", "reprice"), ``verdict`` ("pass", "fail", "error", "skip"), ``value``,
 ``stderr``, ``reference``, ``z`` and ``message``; see docs/json-format.md for the rest.
 """
 

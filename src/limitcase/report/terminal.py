@@ -22,8 +22,8 @@ def _num(x: float | None, digits: int = 5) -> str:
 
 
 def _row(o: Outcome) -> tuple[str, ...]:
-    if o.verdict == "error" and o.value is None:
-        return (o.product, o.case, o.kind, "-", "-", "-", "-", "ERROR")
+    if o.verdict in ("error", "skip") and o.value is None:
+        return (o.product, o.case, o.kind, "-", "-", "-", "-", o.verdict.upper())
     value = f"{_num(o.value, 6)} +/- {_num(o.stderr, 2)}"
     sense = "" if o.sense == "==" else f"{o.sense} "
     return (
@@ -54,8 +54,8 @@ def render_summary(result: RunResult, reproduce: str = "limitcase check") -> str
     """Counts, then what went wrong and how to reproduce it."""
     s = result.summary
     lines = [
-        f"{s['total']} check{'' if s['total'] == 1 else 's'}: {s['pass']} pass, {s['fail']} fail, {s['error']} error "
-        f"(paths {result.paths}, seed {result.seed}, family-wise false-alarm rate {result.alpha:g}, Holm)"
+        f"{s['total']} check{'' if s['total'] == 1 else 's'}: {s['pass']} pass, {s['fail']} fail, {s['error']} error, "
+        f"{s.get('skip', 0)} skip (paths {result.paths}, seed {result.seed}, family-wise false-alarm rate {result.alpha:g}, Holm)"
     ]
     allowances = [o for o in result.outcomes if o.allowance]
     for o in allowances:
