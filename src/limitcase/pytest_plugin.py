@@ -201,7 +201,7 @@ class LimitcaseItem(pytest.Item):
             self.user_properties.append((f"limitcase_{key}", getattr(o, key)))
         if o.verdict == "skip":  # no reference under the model: reported as a skip, never a pass
             pytest.skip(f"limitcase {o.product}/{o.case}: {o.message}")
-        if o.verdict != "pass":
+        if o.verdict != "pass" or o.model_audit in ("fail", "error"):  # a model that fails its audit fails its checks
             raise CheckFailed(o, run.explain(self, o))
 
     def repr_failure(self, excinfo: pytest.ExceptionInfo[BaseException], style: Any = None) -> Any:

@@ -415,7 +415,8 @@ def reduction_checks(product: Product, model: Model, red: Reduction) -> list[Che
     against the base product priced on the same paths (path by path for an exact reduction,
     and their prices on common paths, difference 0 within the declared allowance), then
     ``<name>`` itself as a skip naming the missing reference. A base product that lives under
-    another model (``reference_model``) cannot share paths: only the skip is left."""
+    another model (``reference_model``) cannot share paths, and a product's own closed form
+    (the base is the product itself) has nothing to compare: only the skip is left."""
     name = type(product).__name__
     try:
         if red.model_changes:
@@ -474,14 +475,21 @@ def _reduction_note(red: Reduction, at_limit: Product, base: Product) -> str:
     return red.note or f"{changes}: becomes {base.label()}"
 
 
+def _same_product(a: Product, b: Product) -> bool:
+    try:
+        return type(a) is type(b) and a.params() == b.params()
+    except Exception:  # parameters that cannot be compared: treat as different
+        return False
+
+
 def _without_reference(name: str, red: Reduction, model: Model, at_limit: Product, base: Product,
                        exc: NoReference) -> list[Check]:
     reason = f"no reference for the base case {base.label()} under {type(model).__name__}: {exc}"
     skip = Check(product=name, case=red.name, kind="reduction", legs=(at_limit, base), model=model,
                  target_source=f"{base.label()} (no reference)", note=_reduction_note(red, at_limit, base),
                  skip=reason)
-    if red.reference_model is not None:
-        return [skip]
+    if red.reference_model is not None or _same_product(at_limit, base):
+        return [skip]  # another model's base cannot share paths; a product against itself proves nothing
     try:
         allowance = float(red.allowance(at_limit, model)) if callable(red.allowance) else float(red.allowance)
     except Exception:  # an allowance computed from the missing reference: the legs cannot be compared

@@ -85,6 +85,7 @@ class Outcome:
     precision: float | None = None  # the detectable bias asked for by --precision, in price units
     precision_status: str = ""  # "reached", "budget", "allowance", "identity broken" (precision runs)
     controls: tuple[str, ...] = ()  # control variates used
+    model_audit: str | None = None  # verdict of the run's martingale audit of the check's model
 
     def to_dict(self) -> dict:
         d = {k: getattr(self, k) for k in self.__dataclass_fields__}
