@@ -241,6 +241,7 @@ class _Run:
         self.session, self.st = session, st
         self.outcomes: dict[str, Any] | None = None
         self.m = 0
+        self.audits: list[Any] = []
 
     def outcome(self, item: LimitcaseItem) -> Any:
         from .suite import run_checks
@@ -253,6 +254,7 @@ class _Run:
                                 alpha=self.st.alpha, method=self.st.method)
             self.outcomes = {i.nodeid: o for i, o in zip(items, result.outcomes)}
             self.m = len(items)
+            self.audits = result.outcomes[len(items):]  # the run's model audits, listed after the items
         return self.outcomes[item.nodeid]
 
     def explain(self, item: LimitcaseItem, o: Any) -> str:
@@ -270,6 +272,7 @@ class _Run:
         lines.append(
             f"  settings: paths {self.st.paths}, seed {self.st.seed}, alpha {self.st.alpha:g}, "
             f"Holm over the {self.m} limitcase item(s) of this session"
+            + (f" and the {len(self.audits)} martingale audit(s) of their models" if self.audits else "")
         )
         from .settings import reproduce_command
 

@@ -300,7 +300,8 @@ def build_dossier(
 
     result = run_checks(all_checks, paths=paths, seed=seed, alpha=alpha, regression_paths=regression_paths,
                         progress=lambda i, n: progress(i, total) if progress else None,
-                        method=method, workers=workers)
+                        method=method, workers=workers,
+                        audit_models=False)  # the dossier runs its models' audits itself, a family of their own
     done[0] = len(all_checks)
 
     for page, product, (a, b) in zip(pages, instances, spans):
