@@ -59,7 +59,7 @@ def terminal_method(model: Model, product: object) -> str:
         raise NoReference(
             f"{name} is priced on one asset; {type(model).__name__} has {model.n_assets}"
         )
-    if callable(getattr(model, "european_price", None)):
+    if type(model).european_price is not Model.european_price:
         return SURFACE
     if not _states_charfn(model):
         raise NoReference(

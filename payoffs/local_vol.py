@@ -11,7 +11,8 @@ from __future__ import annotations
 
 from limitcase import Reduction
 from limitcase.models import LocalVol
-from limitcase.volsurface import SviSlice, VarianceSurface
+from limitcase.models.localvol import example_surface
+from limitcase.volsurface import VarianceSurface
 
 from .barriers import _AWAY_OUT, _DiscreteOut, DownAndOutCall
 
@@ -21,14 +22,9 @@ SPOT, RATE, DIVIDEND = 100.0, 0.03, 0.01
 
 
 def skewed_surface() -> VarianceSurface:
-    """Three SVI slices (3 months, 6 months, 1 year) with a put skew, free of static
-    arbitrage (checked when built)."""
-    return VarianceSurface(
-        (0.25, 0.5, 1.0),
-        (SviSlice(0.010, 0.06, -0.6, 0.02, 0.15), SviSlice(0.022, 0.09, -0.55, 0.03, 0.20),
-         SviSlice(0.045, 0.12, -0.5, 0.04, 0.30)),
-        SPOT, RATE, DIVIDEND, (-0.6, 0.4), source="an invented equity skew",
-    )
+    """The invented equity skew of :func:`limitcase.models.localvol.example_surface`, free of
+    static arbitrage (checked when built)."""
+    return example_surface(SPOT, RATE, DIVIDEND)
 
 
 STEP_BIAS = 0.05

@@ -11,7 +11,6 @@ from __future__ import annotations
 import importlib
 import pkgutil
 import sys
-from typing import Any
 
 import click
 
@@ -63,28 +62,43 @@ def main() -> None:
               help="Path budget of each check under --precision.")
 @click.option("--workers", type=click.IntRange(min=1), default=None,
               help="Worker processes (default: all cores). The numbers do not depend on it.")
+@click.option("--model", "model_spec", metavar="SPEC", default=None,
+              help="Run every product under this model instead of its scenario: a shipped name with "
+                   "overrides (heston:kappa=2,theta=0.04) or a file (my_model.py, my_model.py:Class:vol=0.3). "
+                   "Products with another asset count are skipped.")
 @handle_errors
 def check(paths_in: tuple[str, ...], paths: int, seed: int, alpha: float, json_path: str | None,
           junit_path: str | None, debug: bool, selects: tuple[str, ...], regression_paths: int | None,
-          method: str, precision: str | None, max_paths: int, workers: int | None) -> None:
+          method: str, precision: str | None, max_paths: int, workers: int | None,
+          model_spec: str | None = None) -> None:
     """Run every declared reduction and relation of the products in PATH (files or
     folders of .py files; default: the shipped catalogue)."""
     import time
 
     from .loader import load_products
-    from .reduce import checks_for
-    from .report import render_summary, render_table
+    from .report.terminal import render_detection, render_summary, render_table
     from .settings import default_workers
     from .suite import parse_precision, run_checks
 
     target = parse_precision(precision) if precision is not None else None
-    products = load_products(paths_in)
-    if not products:
+    # user models, load failures, same-name classes: limitcase.plan
+    from .models.spec import resolve_model
+    from .plan import plan_checks
+
+    model = resolve_model(model_spec) if model_spec is not None else None
+    failures: list = []
+    products = load_products(paths_in, failures=failures)
+    if not products and not failures:
         raise InputFailure(f"no Product classes found in {', '.join(paths_in) or 'the catalogue'}")
-    checks = select_checks([c for p in products for c in checks_for(p)], selects)
+    planned, skipped = plan_checks(products, model, failures)
+    for s in skipped:
+        click.echo(f"skipped {s.product}: {s.reason}")
+    # a file that did not import is reported whatever --select says: nothing is lost
+    checks = [c for c in planned if c.kind == "load"] + select_checks([c for c in planned if c.kind != "load"], selects)
     if not checks:
         raise InputFailure("no checks to run: the products declare no reductions or relations"
-                           + (" matching --select" if selects else ""))
+                           + (" matching --select" if selects else "")
+                           + (f"; {len(skipped)} product(s) skipped under the model" if skipped else ""))
     workers = workers or default_workers()
     progress = Progress("checking", len(checks))
     start = time.monotonic()
@@ -96,54 +110,22 @@ def check(paths_in: tuple[str, ...], paths: int, seed: int, alpha: float, json_p
     finally:
         progress.close()
     result.extra["workers"] = workers
+    if model is not None:
+        result.extra["model"] = model.label()
+        result.extra["skipped"] = [{"product": s.product, "reason": s.reason} for s in skipped]
     result.extra["wall_seconds"] = round(time.monotonic() - start, 3)
     click.echo(render_table(result.outcomes))
     click.echo("")
-    click.echo(_detection_table(result))
+    click.echo(render_detection(result))
     click.echo("")
     # seed and paths are appended per failing check by the renderers
     reproduce = reproduce_command("check", paths_in, seed=None, paths=None, method=method, precision=precision,
-                                  max_paths=max_paths, alpha=alpha)
+                                  max_paths=max_paths, alpha=alpha, model=model_spec)
     click.echo(render_summary(result, reproduce=reproduce))
     used = result.extra.get("processes", 1)
     click.echo(f"{result.extra['wall_seconds']:.1f} s on " + ("1 process" if used == 1 else f"{used} worker processes"))
     write_outputs(result, "check", json_path, junit_path, reproduce)
     sys.exit(EXIT_OK if result.ok else EXIT_FAIL)
-
-
-def _detection_table(result: Any) -> str:
-    """Per check: method, paths, the smallest bias detected with 90% power (and relative to the
-    reference), and under --precision whether the target was reached."""
-    tested = [o for o in result.outcomes if o.detectable_bias is not None]
-    m = len(tested)
-    precise = "precision" in result.extra
-    head = ["product", "case", "method", "paths", "detectable bias", "rel."] + (["precision"] if precise else [])
-    rows = [head]
-    for o in result.outcomes:
-        if o.detectable_bias is None:
-            continue
-        rel = f"{100 * o.detectable_relative:.2g}%" if o.detectable_relative else "-"
-        row = [o.product, o.case, o.method, str(o.paths), f"{o.detectable_bias:.3g}", rel]
-        if precise:
-            status = {"reached": "reached", "budget": "BUDGET SPENT", "allowance": "below allowance",
-                      "identity broken": "identity broken"}.get(o.precision_status, o.precision_status)
-            row.append(f"{status} ({o.precision:.3g})" if o.precision is not None else status)
-        rows.append(row)
-    widths = [max(len(r[i]) for r in rows) for i in range(len(head))]
-    lines = [f"smallest bias each check detects with 90% power (Holm over {m} check{'' if m == 1 else 's'} at alpha "
-             f"{result.alpha:g}; declared allowances included)"]
-    for k, r in enumerate(rows):
-        lines.append("  ".join(c.ljust(w) if i < 3 else c.rjust(w) for i, (c, w) in enumerate(zip(r, widths))).rstrip())
-        if k == 0:
-            lines.append("  ".join("-" * w for w in widths))
-    if precise:
-        short = [o for o in result.outcomes if o.precision_status == "budget"]
-        lines.append(f"precision {result.extra['precision']}: {m - len(short)} of {m} checks reached it"
-                     + (f"; {len(short)} spent the budget of {result.extra['max_paths']} paths" if short else ""))
-    notes = sorted({n for o in result.outcomes for n in (o.message or "").split("; ")
-                    if n.startswith(("Sobol points not used", "no underlying control")) or "control_variates skipped" in n})
-    lines.extend(f"note: {n}" for n in notes)
-    return "\n".join(lines)
 
 
 def _register_commands() -> None:

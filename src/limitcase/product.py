@@ -26,7 +26,7 @@ from typing import TYPE_CHECKING, Any, ClassVar
 
 import numpy as np
 
-from .errors import DeclarationError, NoReference, ParamError
+from .errors import DeclarationError, LimitcaseError, NoReference, ParamError, PayoffError
 from .params import Parametrised
 
 if TYPE_CHECKING:  # pragma: no cover
@@ -201,7 +201,13 @@ class Product(Parametrised):
         """``dates()`` as a float array, checked increasing and positive."""
         name = type(self).__name__
         try:
-            d = np.asarray(self.dates(), dtype=float).reshape(-1)
+            raw = self.dates()
+        except LimitcaseError:
+            raise
+        except Exception as exc:  # the product's own code failed: an error for its checks only
+            raise PayoffError(f"{name}.dates() raised {type(exc).__name__}: {exc}{_where(exc)}") from exc
+        try:
+            d = np.asarray(raw, dtype=float).reshape(-1)
         except (TypeError, ValueError) as exc:
             raise ParamError(f"{name}.dates() did not return numbers: {exc}") from exc
         if d.size == 0:
@@ -210,7 +216,12 @@ class Product(Parametrised):
             raise ParamError(
                 f"{name}.dates() must be finite, > 0 and strictly increasing; got {d[:6]!r}"
             )
-        ex = np.asarray(self.exercise_dates(), dtype=float).reshape(-1)
+        try:
+            ex = np.asarray(self.exercise_dates(), dtype=float).reshape(-1)
+        except LimitcaseError:
+            raise
+        except Exception as exc:
+            raise PayoffError(f"{name}.exercise_dates() raised {type(exc).__name__}: {exc}{_where(exc)}") from exc
         if ex.size and not np.all(np.isin(ex, d)):
             raise ParamError(f"{name}.exercise_dates() must be a subset of dates()")
         return d
@@ -261,6 +272,14 @@ def validate_declarations(cls: type) -> None:
                     "give each its own name"
                 )
             seen[name] = decl.describe()
+
+
+def _where(exc: BaseException) -> str:
+    """`` (file:line)`` of the innermost frame of the exception's traceback, or ``""``."""
+    import traceback
+
+    frames = traceback.extract_tb(exc.__traceback__)
+    return f" ({frames[-1].filename}:{frames[-1].lineno})" if frames else ""
 
 
 def _fmt(v: Any) -> str:

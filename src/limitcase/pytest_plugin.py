@@ -9,10 +9,14 @@ products are, in the ini file::
     limitcase_seed = 20261201        # optional; default as `limitcase check`
     limitcase_alpha = 0.01           # optional; default as `limitcase check`
     limitcase_method = auto          # optional; sampling method, as `limitcase check --method`
+    limitcase_model = models/mine.py:Mine:vol=0.3   # optional; every product under this model,
+                                     # as `limitcase check --model` (a file relative to the ini file)
 
 or on the command line: ``--limitcase-payoffs PATH`` (repeatable; collected whatever other
 arguments are given), ``--limitcase-paths``, ``--limitcase-seed``, ``--limitcase-alpha``,
-``--limitcase-method``.
+``--limitcase-method``, ``--limitcase-model``. Under a model, a product whose asset count
+differs from the model's is one skipped item saying why; a model spec that cannot be resolved
+is one failing item naming the problem.
 
 Every declared case of every product found becomes one item,
 ``payoffs/mine.py::MyProduct::case``, marked ``limitcase`` (``-m limitcase`` runs only
@@ -51,6 +55,7 @@ class _Settings:
     seed: int
     alpha: float
     method: str
+    model: str | None = None
 
 
 def pytest_addoption(parser: pytest.Parser) -> None:
@@ -65,12 +70,15 @@ def pytest_addoption(parser: pytest.Parser) -> None:
                     help="Family-wise false-alarm rate over the limitcase items (Holm).")
     group.addoption("--limitcase-method", default=None, metavar="METHOD",
                     help="Sampling method of the limitcase items, as `limitcase check --method` (default auto).")
+    group.addoption("--limitcase-model", default=None, metavar="SPEC",
+                    help="Run every product under this model, as `limitcase check --model SPEC`.")
     parser.addini("limitcase_payoffs", type="paths", default=[],
                   help="Files or folders of product modules whose declared cases become test items.")
     parser.addini("limitcase_paths", default="", help="Monte Carlo paths per limitcase case.")
     parser.addini("limitcase_seed", default="", help="Seed of the limitcase run.")
     parser.addini("limitcase_alpha", default="", help="Family-wise false-alarm rate of the limitcase items.")
     parser.addini("limitcase_method", default="", help="Sampling method of the limitcase items (default auto).")
+    parser.addini("limitcase_model", default="", help="Model spec every product runs under (default: its scenario).")
 
 
 def _setting(config: pytest.Config, option: str, ini: str, kind: type, default: Any) -> Any:
@@ -106,7 +114,23 @@ def _settings(config: pytest.Config) -> _Settings | None:
     for p in cli + ini:
         if not p.exists():
             raise pytest.UsageError(f"limitcase payoffs path {p} does not exist; fix limitcase_payoffs / --limitcase-payoffs")
-    return _Settings(ini + tuple(p for p in cli if p not in ini), cli, paths, seed, alpha, method)
+    model = config.getoption("limitcase_model")
+    if model is None:
+        model = _ini_model(config)
+    return _Settings(ini + tuple(p for p in cli if p not in ini), cli, paths, seed, alpha, method, model or None)
+
+
+def _ini_model(config: pytest.Config) -> str | None:
+    """The ini file's model spec, a file in it made relative to the ini file's folder."""
+    text = str(config.getini("limitcase_model") or "").strip()
+    if not text:
+        return None
+    from .models.spec import parse_model_spec
+
+    spec = parse_model_spec(text)
+    if spec.is_path and config.inipath is not None and not Path(spec.target).is_absolute():
+        return str(config.inipath.parent / spec.target) + text[len(spec.target):]
+    return text
 
 
 def pytest_configure(config: pytest.Config) -> None:
@@ -117,9 +141,31 @@ def pytest_configure(config: pytest.Config) -> None:
 
 
 def _py_files(root: Path) -> list[Path]:
-    if root.is_dir():
-        return sorted(f.resolve() for f in root.rglob("*.py") if not f.name.startswith("_"))
+    if root.is_dir():  # the folders and files `limitcase check` searches (not tests, venvs, ...)
+        from .loader import folder_files
+
+        return [f.resolve() for f in folder_files(root)]
     return [root] if root.suffix == ".py" else []
+
+
+_MODEL = pytest.StashKey["tuple[Any, str | None]"]()
+
+
+def _model(config: pytest.Config) -> tuple[Any, str | None]:
+    """The session's model (None: each product's scenario) or why it cannot be made."""
+    if _MODEL not in config.stash:
+        st = config.stash[_SETTINGS]
+        found: tuple[Any, str | None] = (None, None)
+        if st.model:
+            from .errors import LimitcaseError
+            from .models.spec import resolve_model
+
+            try:
+                found = (resolve_model(st.model), None)
+            except LimitcaseError as exc:
+                found = (None, f"model {st.model!r}: {exc}")
+        config.stash[_MODEL] = found
+    return config.stash[_MODEL]
 
 
 def _wanted(config: pytest.Config, st: _Settings) -> list[Path]:
@@ -154,8 +200,13 @@ class LimitcaseFile(pytest.File):
     def collect(self) -> Iterator[pytest.Item]:
         from .errors import LimitcaseError
         from .loader import load_products
+        from .plan import model_fits
         from .reduce import checks_for
 
+        model, problem = _model(self.config)
+        if problem is not None:
+            yield LimitcaseBroken.from_parent(self, name="model", problem=problem)
+            return
         try:
             products = load_products([self.path])
         except LimitcaseError as exc:
@@ -163,10 +214,15 @@ class LimitcaseFile(pytest.File):
             return
         for cls in products:
             try:
-                checks = checks_for(cls)
+                why = model_fits(cls(), model) if model is not None else None
+                checks = [] if why else checks_for(cls, model)
             except Exception as exc:  # the product cannot be built at its defaults
                 yield LimitcaseBroken.from_parent(
                     self, name=cls.__name__, problem=f"{cls.__name__} cannot be built: {type(exc).__name__}: {exc}")
+                continue
+            if why:
+                yield LimitcaseSkipped.from_parent(self, name=cls.__name__,
+                                                   reason=f"{cls.__name__} {why} (limitcase model {model.label()})")
                 continue
             if not checks:
                 yield LimitcaseBroken.from_parent(
@@ -234,6 +290,21 @@ class LimitcaseBroken(pytest.Item):
         return self.path, None, f"limitcase {self.name}"
 
 
+class LimitcaseSkipped(pytest.Item):
+    """A product the session's model cannot run (another asset count): skipped, with why."""
+
+    def __init__(self, *, reason: str, **kwargs: Any) -> None:
+        super().__init__(**kwargs)
+        self.reason = reason
+        self.add_marker("limitcase")
+
+    def runtest(self) -> None:
+        pytest.skip(self.reason)
+
+    def reportinfo(self) -> tuple[Path, None, str]:
+        return self.path, None, f"limitcase {self.name}"
+
+
 class _Run:
     """Prices every selected limitcase item once, with Holm over them, on first use."""
 
@@ -278,7 +349,7 @@ class _Run:
 
         lines.append("  reproduce: " + reproduce_command(
             "check", [str(item.path)], seed=self.st.seed, paths=self.st.paths, alpha=self.st.alpha,
-            method=self.st.method, select=f"{o.product}/{o.case}"))
+            method=self.st.method, select=f"{o.product}/{o.case}", model=self.st.model))
         return "\n".join(lines)
 
 

@@ -5,9 +5,10 @@ streams (keyed by product and case name), so a failing check reproduces on its o
 the same seed, whatever else was run with it.
 
 Parallel runs. A run is cut into tasks: the set-up of each check (Longstaff-Schwartz
-policy, control-variate pilot) and ranges of its blocks. Tasks go to a pool of forked
-worker processes (``workers > 1``), which inherit the loaded products, so products defined
-in the user's own files work there as they do here. Every block is summarised by whichever
+policy, control-variate pilot) and ranges of its blocks. Tasks go to the shared pool of forked
+worker processes (:mod:`limitcase.workers`, ``workers > 1``), which inherit the loaded
+products, so products defined in the user's own files work there as they do here; Ctrl-C
+stops the workers and ends the run at once. Every block is summarised by whichever
 process computes it and the summaries are combined in block order in this process: the
 numbers are the same for any number of workers. Where ``fork`` is not available the run
 falls back to one process, with a :class:`RuntimeWarning`.
@@ -34,7 +35,6 @@ binomial interval of the nominal rate. A stopping rule reading the difference it
 from __future__ import annotations
 
 import math
-import multiprocessing
 import warnings
 from dataclasses import dataclass, replace
 from typing import Any, Callable, Sequence
@@ -58,6 +58,7 @@ from .settings import (
 )
 from .streams import BLOCK, case_key
 from .verdict import Outcome, RunResult, check_scale, decide, detectable_bias, finalise, skip_outcome
+from .workers import ForkedPool, InlinePool, open_pool
 
 __all__ = [
     "RunResult",
@@ -186,71 +187,10 @@ def _task_blocks(args: tuple[int, int, Setup, int, int, int]) -> tuple[int, list
         return i, None, str(exc)
 
 
-class _Inline:
-    workers = 1
-
-    def map(self, fn: Callable, tasks: list) -> Any:
-        return (fn(t) for t in tasks)
-
-    def close(self) -> None:
-        pass
-
-
-class _Forked:
-    """A pool of forked workers (they inherit ``_RUN``: the checks, their products and cases).
-    A worker that dies (killed, out of memory) breaks the pool: the run stops with an error
-    instead of waiting for the lost task."""
-
-    def __init__(self, workers: int) -> None:
-        from concurrent.futures import ProcessPoolExecutor
-
-        self.workers = workers
-        self.pool = ProcessPoolExecutor(max_workers=workers, mp_context=multiprocessing.get_context("fork"),
-                                        initializer=_mark_worker)
-
-    def map(self, fn: Callable, tasks: list) -> Any:
-        """Results in task order, each as soon as it and those before it are in."""
-        from concurrent.futures.process import BrokenProcessPool
-
-        try:
-            yield from self.pool.map(fn, tasks)
-        except BrokenProcessPool as exc:
-            raise RuntimeError(
-                f"a worker process died during the run ({exc}); re-run with workers=1 (--workers 1) "
-                "to see the error in this process"
-            ) from exc
-
-    def close(self) -> None:
-        self.pool.shutdown(wait=True, cancel_futures=True)
-
-
-_IN_WORKER = False
-
-
-def _mark_worker() -> None:
-    global _IN_WORKER
-    _IN_WORKER = True
-
-
-def _executor(workers: int, tasks_hint: int) -> _Inline | _Forked:
-    if workers <= 1 or tasks_hint <= 1:
-        return _Inline()
-    if _IN_WORKER or multiprocessing.current_process().daemon:  # inside a worker: no pools of pools
-        return _Inline()
-    if "fork" not in multiprocessing.get_all_start_methods():
-        warnings.warn(
-            f"workers={workers}: this platform cannot fork worker processes (which inherit the loaded "
-            "products); running in one process. The numbers are the same.",
-            RuntimeWarning,
-            stacklevel=3,
-        )
-        return _Inline()
-    try:
-        return _Forked(workers)
-    except OSError as exc:  # pragma: no cover - resource limits
-        warnings.warn(f"workers={workers}: cannot start worker processes ({exc}); running in one process",
-                      RuntimeWarning, stacklevel=3)
-        return _Inline()
+def _executor(workers: int, tasks_hint: int) -> InlinePool | ForkedPool:
+    """The shared pool (:mod:`limitcase.workers`): forked workers inherit ``_RUN`` (the
+    checks, their products and cases); one process where forking is not possible."""
+    return open_pool(workers, tasks_hint, stacklevel=4)
 
 
 def _split(first: int, last: int, per_task: int) -> list[tuple[int, int]]:

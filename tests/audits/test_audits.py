@@ -133,13 +133,14 @@ def test_every_shipped_model_passes_every_audit(default_run):
     assert default_run.ok, render_table(default_run.outcomes) + "\n" + "\n".join(
         f"{o.product}/{o.case}: {o.message}" for o in default_run.outcomes if o.verdict != "pass")
     names = {o.product for o in default_run.outcomes}
-    assert names == {"BlackScholes", "MultiBlackScholes", "Heston", "Merton"}
+    assert names == {"BlackScholes", "MultiBlackScholes", "Heston", "Merton", "LocalVol"}
     for name in names:
         cases = {o.case for o in default_run.outcomes if o.product == name}
         for audit in ("martingale", "paths", "seeds", "steps_limit"):
             assert audit in cases, (name, cases)
     cases = {(o.product, o.case) for o in default_run.outcomes}
     assert ("Heston", "degenerations:vol_of_vol_to_zero") in cases
+    assert ("LocalVol", "degenerations:flat_surface") in cases
     assert ("Merton", "degenerations:intensity_to_zero") in cases and ("Merton", "degenerations:jump_sizes_to_zero") in cases
     assert ("MultiBlackScholes", "degenerations:asset2_alone") in cases
     assert ("BlackScholes", "steps_flat") in cases and ("Merton", "steps_flat") in cases
@@ -148,7 +149,7 @@ def test_every_shipped_model_passes_every_audit(default_run):
 
 def test_run_records_timings_and_models(default_run):
     timings = default_run.extra["timings"]
-    assert set(timings) == {"BlackScholes", "MultiBlackScholes", "Heston", "Merton"}
+    assert set(timings) == {"BlackScholes", "MultiBlackScholes", "Heston", "Merton", "LocalVol"}
     assert all(set(t) == set(AUDITS) and all(s >= 0 for s in t.values()) for t in timings.values())
     doc = outcomes_document(default_run, "audit")
     assert doc["command"] == "audit" and doc["settings"]["models"]["Heston"].startswith("Heston(")
@@ -281,6 +282,7 @@ def test_reference_registry_follows_the_class_hierarchy():
     assert source.startswith("Heston") and value == reference_price(Heston(), option)[0]
 
     class Unknown(Model):
+        abstract = True  # declares no simulation: only its (missing) reference is asked for
         rate = BlackScholes.rate
 
     with pytest.raises(NoReference, match="no reference price registered for Unknown; register one"):

@@ -59,3 +59,17 @@ def test_an_audit_that_cannot_run_fails_the_command():
 def test_bad_option_values_are_usage_errors():
     assert _run("--paths", "10").exit_code == 2
     assert _run("--only", "drift").exit_code == 2
+
+
+def test_the_audit_table_has_a_legend_for_rows_that_are_not_prices():
+    # the paths row holds a slope, the seeds row Cochran's Q, steps_flat a price difference:
+    # the legend says so; a martingale-only run (prices) needs none
+    r = _run("BlackScholes", "--paths", "20000", "--only", "paths", "--only", "seeds", "--only", "martingale")
+    assert r.exit_code == 0, r.output
+    assert "rows that are not prices:" in r.output
+    legend = r.output.split("rows that are not prices:")[1]
+    assert "paths" in legend and "slope of log(standard error)" in legend and "reference -0.5" in legend
+    assert "seeds" in legend and "Cochran's Q" in legend and "K - 1" in legend
+    assert "steps_flat" not in legend
+    r = _run("BlackScholes", "--paths", "20000", "--only", "martingale")
+    assert r.exit_code == 0 and "rows that are not prices" not in r.output

@@ -5,6 +5,7 @@ fractions their definitions say; model-free no-arbitrage breaks are reported as 
 from __future__ import annotations
 
 import math
+import time
 from datetime import date
 
 import numpy as np
@@ -278,3 +279,50 @@ def test_warnings_are_shown_by_the_command_and_do_not_stop_it(tmp_path):
     assert r.exit_code in (0, 1), r.output
     assert "warning: call prices increase with the strike: T=0.5 K=100 call" in r.output
     assert "Black-Scholes calibration" in r.output
+
+
+def test_missing_quote_file_without_market_names_the_file_not_the_spot(tmp_path):
+    # before: with no market options and no .market file beside it, a missing quote file
+    # was reported as "no spot given"
+    missing = tmp_path / "nope.csv"
+    r = CliRunner().invoke(main, ["reprice", str(missing)])
+    assert r.exit_code == 2
+    assert "nope.csv" in r.output and "does not exist" in r.output
+    assert "no spot" not in r.output and "Traceback" not in r.output
+
+
+def test_oversized_quote_file_is_refused_at_once_with_an_estimate(tmp_path):
+    # a 100 MB quote file used to take minutes and 5 GB before any message; the size is now
+    # checked before reading. The file is sparse past its first lines (quick to make): the
+    # estimate comes from the length of those lines.
+    from limitcase.quotes import MAX_QUOTE_FILE_BYTES, check_quote_file
+
+    big = tmp_path / "big.csv"
+    head = GOOD + "".join(f"0.5,{100 + i},call,{6.5 - i * 0.01:.2f}\n" for i in range(5000))
+    assert len(head) > 1 << 16
+    with open(big, "wb") as fh:
+        fh.write(head.encode())
+        fh.truncate(100_000_000)
+    start = time.perf_counter()
+    with pytest.raises(InputError) as err:
+        check_quote_file(big)
+    assert time.perf_counter() - start < 1.0
+    msg = str(err.value)
+    assert "big.csv" in msg and "100.0 MB" in msg and "MiB" in msg
+    n = int(msg.split("about ")[1].split(" lines")[0].replace(",", ""))
+    per_line = (1 << 16) / head.encode()[: 1 << 16].count(b"\n")
+    assert abs(n - 100_000_000 / per_line) <= 1
+    r = CliRunner().invoke(main, ["reprice", str(big), *MARKET])
+    assert r.exit_code == 2 and "big.csv" in r.output and "Traceback" not in r.output
+    # at the limit the file is read
+    ok = tmp_path / "ok.csv"
+    ok.write_text(GOOD, encoding="utf-8")
+    assert check_quote_file(ok) == len(GOOD) <= MAX_QUOTE_FILE_BYTES
+
+
+def test_too_many_quotes_are_refused(tmp_path, monkeypatch):
+    from limitcase.quotes import reading as quotes_module
+
+    monkeypatch.setattr(quotes_module, "MAX_QUOTES", 1)
+    r = run(tmp_path, GOOD, *MARKET)
+    assert r.exit_code == 2 and "2 quotes" in r.output and "MAX_QUOTES" in r.output

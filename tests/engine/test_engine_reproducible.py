@@ -151,14 +151,14 @@ def test_different_seeds_and_cases_differ():
 def test_no_pools_inside_workers():
     """A check run inside a worker (a product whose reference runs checks of its own, the
     mutation command's workers) runs in that process instead of forking again."""
-    from limitcase import suite
+    from limitcase import workers
 
-    suite._mark_worker()
+    workers._mark_worker()
     try:
         r = run_checks([call_check(), call_check(case="twin")], paths=BLOCK, seed=1, workers=2)
         assert r.extra["processes"] == 1
     finally:
-        suite._IN_WORKER = False
+        workers._IN_WORKER = False
 
 
 def test_one_process_where_fork_is_missing(monkeypatch):

@@ -8,6 +8,7 @@ on the same files with the same settings (same values to the last digit, same ve
 
 from __future__ import annotations
 
+import concurrent.futures.process  # noqa: F401  (see below)
 import json
 import shutil
 import xml.etree.ElementTree as ET
@@ -25,6 +26,10 @@ SAMPLE = Path(__file__).resolve().parent / "sample_project"
 GOOD = ["payoffs/team_asian.py::TeamAsianCall::one_fixing", "payoffs/team_asian.py::TeamAsianCall::decreasing_in_strike"]
 BROKEN = "payoffs/team_broken.py::TeamBrokenAsianCall::one_fixing"
 
+
+# concurrent.futures.process is imported here, before pytester snapshots sys.modules: an inner
+# run that imported it first (a process pool) would have it dropped afterwards, and a later
+# pool in this process would fail to pickle its work items ("not the same object").
 
 # The inner runs leave out hypothesis' pytest plugin: pytester restores sys.modules after each
 # run, and that plugin would re-import hypothesis every time (seconds per run, nothing tested).
@@ -130,3 +135,35 @@ def test_file_that_does_not_import_fails_one_item(project: pytest.Pytester) -> N
     result = _run(project)
     result.assert_outcomes(passed=3, failed=2)
     assert "payoffs/typo.py::import" in result.stdout.str()
+
+
+CALM_MODEL = """
+from limitcase.models import BlackScholes
+
+
+class Calm(BlackScholes):
+    '''The team's own model: Black-Scholes under another name.'''
+"""
+
+
+def test_ini_model_runs_every_product_under_the_teams_model(project: pytest.Pytester) -> None:
+    (project.path / "models").mkdir()
+    (project.path / "models" / "calm.py").write_text(CALM_MODEL)
+    _ini(project, "[pytest]\ntestpaths = tests\npython_files = check_*.py\nlimitcase_payoffs = payoffs\n"
+                  "limitcase_paths = 8192\nlimitcase_model = models/calm.py:Calm:vol=0.3\n")
+    result = _run(project, "-rA")
+    result.assert_outcomes(passed=3, failed=1)
+    out = result.stdout.str()
+    assert "--model " in out and "models/calm.py:Calm:vol=0.3" in out  # in the reproduce line
+
+
+def test_model_of_another_asset_count_skips_with_the_reason(project: pytest.Pytester) -> None:
+    result = _run(project, "-rs", "--limitcase-model", "multiblackscholes")
+    result.assert_outcomes(passed=1, skipped=2)
+    assert "reads 1 asset; the model MultiBlackScholes simulates 2" in result.stdout.str()
+
+
+def test_bad_model_spec_fails_one_item_per_file(project: pytest.Pytester) -> None:
+    result = _run(project, "--limitcase-model", "heston:kapa=2")
+    result.assert_outcomes(passed=1, failed=2)
+    assert "Heston has no parameter 'kapa'" in result.stdout.str()

@@ -1,7 +1,9 @@
 """``limitcase audit [MODEL]...``: the engine's own checks, model by model.
 
-Thin: parses, calls :func:`limitcase.audits.run_audits`, renders. Exit status as ``check``:
-0 when every audit passes, 1 when any fails or errors, 2 for bad input (an unknown model).
+Thin: parses, calls :func:`limitcase.audits.run_audits`, renders with
+:mod:`limitcase.report.audit` (the table and the legend of its non-price rows). Exit status as
+``check``: 0 when every audit passes, 1 when any fails or errors, 2 for bad input (an unknown
+model, a model file that does not import, a bad override).
 """
 
 from __future__ import annotations
@@ -19,6 +21,24 @@ def _audit_names() -> tuple[str, ...]:
     return AUDITS
 
 
+def _chosen_models(specs: tuple[str, ...], failures: list) -> dict:
+    """Models by name from the specs (shipped names with overrides, files, folders,
+    ``file.py:Class``; see :mod:`limitcase.models.spec`); a name taken twice gets its file.
+    A file in a folder that does not import goes to ``failures``; the rest are audited."""
+    from ..loader import qualified_names
+    from ..models.spec import resolve_models
+
+    found = [m for s in specs for m in resolve_models(s, failures=failures)]
+    names = qualified_names([type(m) for m in found])
+    chosen: dict = {}
+    for m in found:
+        key = names[type(m)]
+        if key in chosen:
+            key = f"{key} {m.label()}"
+        chosen[key] = m
+    return chosen
+
+
 @click.command("audit")
 @click.argument("model_names", metavar="[MODEL]...", nargs=-1)
 @common_run_options
@@ -34,20 +54,15 @@ def command(model_names: tuple[str, ...], paths: int, seed: int, alpha: float, j
             junit_path: str | None, debug: bool, only: tuple[str, ...], selects: tuple[str, ...],
             drift_correction: bool) -> None:
     """Audit the simulation of each MODEL (default: every shipped model at its default
-    parameters): martingale, standard error against paths, seed-to-seed spread, time-step
+    parameters). MODEL is a shipped name with optional overrides (heston:kappa=2,theta=0.04),
+    a .py file or folder of Model classes, or file.py:Class[:name=value,...]: martingale, standard error against paths, seed-to-seed spread, time-step
     convergence and the model's degenerate cases."""
     from ..audits import AUDITS, default_models, run_audits
     from ..report import render_summary, render_table
+    from ..report.audit import render_audit_legend
 
-    known = default_models()
-    by_lower = {k.lower(): k for k in known}
-    chosen = {}
-    for name in model_names:
-        key = by_lower.get(name.lower())
-        if key is None:
-            raise InputFailure(f"unknown model {name!r}; the models are: {', '.join(known)}")
-        chosen[key] = known[key]
-    models = chosen or known
+    failures: list = []
+    models = _chosen_models(model_names, failures) or ({} if failures else default_models())
     audits = tuple(a for a in AUDITS if a in only) if only else AUDITS
     progress = Progress("auditing", len(models))
     try:
@@ -55,13 +70,21 @@ def command(model_names: tuple[str, ...], paths: int, seed: int, alpha: float, j
                             drift_correction=drift_correction, select=selects, progress=progress)
     finally:
         progress.close()
+    from ..verdict import Outcome
+
+    result.outcomes.extend(Outcome(product=str(f.path), case="import", kind="load", verdict="error",
+                                   message=f.message) for f in failures)
     if not result.outcomes:
         raise InputFailure("no audit outcomes" + (" match --select" if selects else ""))
     click.echo(render_table(result.outcomes))
+    legend = render_audit_legend(result.outcomes)
+    if legend:
+        click.echo(legend)
     click.echo("")
     reproduce = f"limitcase audit {' '.join(model_names)}".rstrip()
     click.echo(render_summary(result, reproduce=reproduce))
     times = result.extra.get("timings", {})
-    click.echo("seconds: " + ", ".join(f"{m} {sum(t.values()):.1f}" for m, t in times.items()))
+    if times:
+        click.echo("seconds: " + ", ".join(f"{m} {sum(t.values()):.1f}" for m, t in times.items()))
     write_outputs(result, "audit", json_path, junit_path, reproduce)
     sys.exit(EXIT_OK if result.ok else EXIT_FAIL)

@@ -1,8 +1,9 @@
 """``limitcase mutate [PATH]...``: how many payoff bugs do the declared checks catch?
 
-Thin: parses, calls :func:`limitcase.mutate.run_mutation`, renders. Prints one line per
-product (mutants, caught, error, survived, equivalent, score), then every survivor with its
-diff and the check that would catch it, then the equivalent mutants. Exit status: 0 when no
+Thin: parses, calls :func:`limitcase.mutate.run_mutation`, renders with
+:mod:`limitcase.report.mutation`. Prints one line per product (mutants, caught, error,
+survived, equivalent, score, share caught by failing checks), then every survivor with its
+diff and the check that would catch it, then the equivalent mutants; progress on stderr. Exit status: 0 when no
 original product fails its own checks and the score reaches ``--min-score`` (if given), 1
 otherwise (a false alarm on an unmutated product is reported loudly), 2 for bad input.
 """
@@ -11,13 +12,13 @@ from __future__ import annotations
 
 import json
 import sys
-import textwrap
+import time
 from pathlib import Path
-from typing import Any
 
 import click
 
-from ..cli_support import EXIT_FAIL, EXIT_OK, InputFailure, Progress, handle_errors
+from ..cli_support import EXIT_FAIL, EXIT_OK, InputFailure, Progress, handle_errors, show_progress
+from ..report.mutation import render_mutation
 from ..suite import DEFAULT_ALPHA, DEFAULT_PATHS, DEFAULT_SEED
 
 
@@ -27,66 +28,29 @@ def _methods() -> tuple[str, ...]:
     return METHODS
 
 
-def _pct(x: float | None) -> str:
-    return "-" if x is None else f"{100.0 * x:.1f}%"
+class _Ticker:
+    """Progress on stderr: a click bar on a terminal (:class:`Progress`), otherwise a line
+    every ``every`` seconds (a CI log shows the run is alive and how far it got)."""
 
+    def __init__(self, label: str, every: float = 30.0) -> None:
+        self.bar = Progress(label, 1)
+        self.label, self.every = label, every
+        self.start = self.last = time.monotonic()
 
-def _table(report: Any) -> str:
-    from ..mutate import product_scores
+    def __call__(self, done: int, total: int) -> None:
+        if show_progress():
+            self.bar.total = total
+            if self.bar.bar is not None:
+                self.bar.bar.length = total
+            self.bar(done, total)
+            return
+        now = time.monotonic()
+        if now - self.last >= self.every:
+            self.last = now
+            click.echo(f"{self.label}: {done} of {total} tasks done, {now - self.start:.0f} s", err=True)
 
-    rows = [("product", "family", "mutants", "caught", "error", "survived", "equivalent", "score")]
-    for s in product_scores(report).values():
-        rows.append((s.product + (" (FALSE ALARM)" if s.false_alarm else ""), s.family, str(s.mutants),
-                     str(s.caught), str(s.error), str(s.survived), str(s.equivalent), _pct(s.score)))
-    rows.append(("",) * 8)
-    for s in report.families().values():
-        rows.append((f"[{s.family}]", "", str(s.mutants), str(s.caught), str(s.error), str(s.survived),
-                     str(s.equivalent), _pct(s.score)))
-    c = report.counts()
-    rows.append(("TOTAL", "", str(c["total"]), str(c["caught"]), str(c["error"]), str(c["survived"]),
-                 str(c["equivalent"]), _pct(report.score)))
-    widths = [max(len(r[i]) for r in rows) for i in range(len(rows[0]))]
-    lines = []
-    for r in rows:
-        cells = [r[0].ljust(widths[0]), r[1].ljust(widths[1])] + [v.rjust(w) for v, w in zip(r[2:], widths[2:])]
-        lines.append("  ".join(cells).rstrip())
-    return "\n".join(lines)
-
-
-def _survivors(report: Any) -> str:
-    out = []
-    for r in report.survivors():
-        edge = " [differs only on edge paths]" if r.edge_only else ""
-        out.append(f"SURVIVED {r.id}  {r.operator}: {r.description}  ({r.location}, {r.function}){edge}")
-        out.append(textwrap.indent(r.diff.rstrip("\n"), "    "))
-        out.append(textwrap.indent(textwrap.fill("-> " + r.suggestion, 100), "    "))
-        out.append("")
-    return "\n".join(out)
-
-
-def _hidden(r: Any) -> bool:
-    return bool(r.status == "equivalent" and r.suggestion)
-
-
-def _equivalents(report: Any) -> str:
-    eq = [r for r in report.results if r.status == "equivalent"]
-    if not eq:
-        return ""
-    lines = []
-    hidden = [r for r in eq if _hidden(r)]
-    if hidden:
-        lines.append(f"equivalent ONLY AT THE CHECK POINTS (they pay differently elsewhere; not scored): {len(hidden)}")
-        for r in hidden:
-            lines.append(f"  {r.id}  {r.operator}: {r.description}  ({r.location})")
-            lines.append(textwrap.indent(textwrap.fill("-> " + r.suggestion, 100), "    "))
-        lines.append("")
-    plain = [r for r in eq if not _hidden(r)]
-    if plain:
-        lines.append(f"equivalent mutants (identical cash flows at every check point and off them; not scored): "
-                     f"{len(plain)}")
-        for r in plain:
-            lines.append(f"  {r.id}  {r.operator}: {r.description}  ({r.location})")
-    return "\n".join(lines)
+    def close(self) -> None:
+        self.bar.close()
 
 
 @click.command("mutate")
@@ -117,17 +81,21 @@ def _equivalents(report: Any) -> str:
 @click.option("--show-caught", is_flag=True, help="Also list every caught and erroring mutant.")
 @click.option("--json", "json_path", type=click.Path(dir_okay=False, writable=True), default=None,
               help="Write every mutant, its status, diff and suggestion to this JSON file.")
+@click.option("--time-limit", type=click.FloatRange(min=0.0, min_open=True), default=None,
+              help="Seconds one mutant may take per pass before it is stopped and reported as a timeout "
+                   "(default: 20 times the unmutated product's own checks, at least 60 s).")
 @click.option("--debug", is_flag=True, help="Show tracebacks for bad input.")
 @handle_errors
 def command(paths_in: tuple[str, ...], paths: int, quick_paths: int | None, equivalence_paths: int | None,
             seed: int, alpha: float, workers: int | None, method: str, operators: tuple[str, ...],
             selects: tuple[str, ...], min_score: float | None, show_caught: bool, json_path: str | None,
-            debug: bool) -> None:
+            time_limit: float | None, debug: bool) -> None:
     """Mutate the payoff code of the products in PATH (files or folders of .py files;
     default: the shipped catalogue), run each product's own checks on every mutant and
     report which bugs are caught, which survive (with the check that would catch them)
     and the mutation score: (caught + error) / (caught + error + survived), equivalent
-    mutants excluded. A mutant whose checks error (a crash) counts as detected."""
+    mutants excluded. A mutant whose checks error (a crash) or that runs past the time
+    limit counts as detected; the share caught by failing checks alone is shown apart."""
     from ..loader import load_products
     from ..mutate import EQUIVALENCE_PATHS, OPERATORS, QUICK_PATHS, run_mutation
 
@@ -144,61 +112,16 @@ def command(paths_in: tuple[str, ...], paths: int, quick_paths: int | None, equi
     if not products:
         raise InputFailure(f"no Product classes found in {', '.join(paths_in) or 'the catalogue'}"
                            + (" matching --select" if selects else ""))
-    progress = Progress("mutating", 1)
-
-    def tick(done: int, total: int) -> None:
-        progress.total = total
-        progress(done, total)
-
+    progress = _Ticker("mutating")
     try:
         report = run_mutation(products, paths=paths, quick_paths=quick,
                               equivalence_paths=equivalence_paths or EQUIVALENCE_PATHS, seed=seed, alpha=alpha,
-                              workers=workers, operators=list(operators) or None, method=method, progress=tick)
+                              workers=workers, operators=list(operators) or None, method=method, progress=progress,
+                              time_limit=time_limit)
     finally:
         progress.close()
 
-    click.echo(_table(report))
-    click.echo("")
-    if report.survivors():
-        click.echo(_survivors(report))
-    if show_caught:
-        for r in report.results:
-            if r.detected:
-                click.echo(f"{r.status.upper():8} {r.id}  {r.operator}: {r.description}  ({r.location}) "
-                           f"by {', '.join(r.detected_by) or 'the check run'} at {r.paths} paths")
-        click.echo("")
-    eq = _equivalents(report)
-    if eq:
-        click.echo(eq)
-        click.echo("")
-    c = report.counts()
-    s = report.settings
-    click.echo(
-        f"mutation score {_pct(report.score)}: {c['caught']} caught + {c['error']} error (a crash counts as "
-        f"detected) of {c['caught'] + c['error'] + c['survived']} non-equivalent mutants; {c['equivalent']} "
-        f"equivalent, {len(report.discarded)} discarded (do not compile); {len(products)} products, "
-        f"{report.runtime:.1f} s on {s['workers']} worker(s) (first pass {s['quick_paths']} paths, "
-        f"survivors {s['paths']} paths, method {s['method']}, seed {s['seed']})"
-    )
-    cpu = s.get("cpu_seconds")
-    if cpu:
-        click.echo("CPU seconds: " + ", ".join(f"{k.replace('_', ' ')} {v:.1f}" for k, v in cpu.items()))
-    weak = [e for e in s.get("excluded_cases", []) if e["paths"] == s["paths"]]
-    if weak:
-        click.echo(f"note: {len(weak)} case(s) fail on the unmutated product at its own level (Holm over its checks, "
-                   f"{s['paths']} paths) and cannot detect its mutants: "
-                   + ", ".join(f"{e['product']}/{e['case']}" for e in weak))
-    hidden = sum(1 for r in report.results if _hidden(r))
-    if hidden:
-        click.echo(f"{hidden} equivalent mutant(s) pay differently off the check points: the checks never vary "
-                   "what that code reads (listed above).")
-    if report.false_alarms:
-        click.echo("")
-        click.echo(f"FALSE ALARM: {len(report.false_alarms)} check(s) of the UNMUTATED products do not pass at "
-                   f"{s['paths']} paths (Holm over every check of the run, as 'limitcase check'): a false alarm "
-                   "of the checks or a bug in the product itself; either way it needs a look:")
-        for a in report.false_alarms:
-            click.echo(f"  {a['product']}/{a['case']}: {a['verdict']} {a['message']}")
+    click.echo(render_mutation(report, show_caught=show_caught))
     if json_path:
         Path(json_path).write_text(json.dumps(report.to_dict(), indent=2, allow_nan=False) + "\n",
                                    encoding="utf-8")

@@ -11,15 +11,17 @@ and keep common random numbers across the products of one case.
 
 from __future__ import annotations
 
+import inspect
+import sys
 from dataclasses import dataclass
 from typing import Any, ClassVar
 
 import numpy as np
 
-from ..errors import ModelError, NoReference
+from ..errors import DeclarationError, ModelError, NoReference
 from ..params import Parametrised
 
-__all__ = ["Model", "Simulated", "Degeneration"]
+__all__ = ["Model", "Simulated", "Degeneration", "declared_at", "checked_normals_per_step"]
 
 
 @dataclass(frozen=True, slots=True)
@@ -60,6 +62,8 @@ class Model(Parametrised):
         super().__init_subclass__(**kwargs)
         if "abstract" not in vars(cls):
             cls.abstract = False
+        if not cls.abstract:
+            _check_declaration(cls)
 
     # hooks
     def normals_per_step(self) -> int:
@@ -96,7 +100,7 @@ class Model(Parametrised):
             raise ModelError(
                 f"{type(self).__name__}.simulate needs increasing times > 0; got {times[:6]!r}"
             )
-        k = self.normals_per_step()
+        k = checked_normals_per_step(self)
         if z.ndim != 3 or z.shape[1] != times.size or z.shape[2] != k:
             raise ModelError(
                 f"{type(self).__name__}.simulate: normals of shape {z.shape} do not match "
@@ -123,3 +127,96 @@ class Model(Parametrised):
 
     def label(self) -> str:
         return repr(self)
+
+    def european_price(self, kind: str, strike: float, maturity: float) -> float:
+        """A trusted price today of a European payoff of the (first) asset's ``S(T)``,
+        computed from the model's parameters alone (a closed form, with its published
+        source, or the model's own surface), never from its simulation. ``kind`` is
+        ``"call"``, ``"put"``, ``"cash_call"``/``"cash_put"`` (pay 1 if ``S(T)`` is above /
+        below the strike) or ``"asset_call"``/``"asset_put"`` (pay ``S(T)``); raise
+        :class:`~limitcase.errors.NoReference` for a kind the model has no price for.
+
+        Optional. The audits' steps and degenerations checks use the call; the catalogue's
+        European products use every kind (before the Fourier price of a stated
+        :meth:`characteristic_function`). Default: none."""
+        raise NoReference(f"{type(self).__name__} states no european_price(kind, strike, maturity)")
+
+
+def declared_at(cls: type) -> str:
+    """``file:line`` where ``cls`` is defined (``file`` alone if the line is unknown), for
+    messages about a declaration."""
+    module = sys.modules.get(cls.__module__)
+    path = getattr(module, "__file__", None) or cls.__module__
+    try:
+        line = inspect.getsourcelines(cls)[1]
+    except (OSError, TypeError):
+        return str(path)
+    return f"{path}:{line}"
+
+
+def _declaration_error(cls: type, what: str, fix: str) -> DeclarationError:
+    return DeclarationError(f"{declared_at(cls)}: model class {cls.__qualname__}: {what}; {fix}")
+
+
+def _overrides(cls: type, name: str) -> bool:
+    return any(name in vars(k) for k in cls.__mro__ if k is not Model and issubclass(k, Model))
+
+
+def _check_declaration(cls: type) -> None:
+    """Refuse, at class definition, a model declaration the engine cannot use, naming the file,
+    the class, the parameter and the fix (rather than failing deep inside a run)."""
+    specs = cls._param_specs  # type: ignore[attr-defined]
+    # a default outside its range is refused by Parametrised (DeclarationError)
+    if "rate" not in specs and not _overrides(cls, "short_rate"):
+        raise _declaration_error(
+            cls, "no 'rate' parameter",
+            "declare rate = Param(0.05, low=-1.0, high=1.0, doc=\"continuously compounded short rate\"): "
+            "the engine discounts with it and the martingale audit tests against it")
+    for hook in ("initial", "dividend_yields", "_simulate"):
+        if not _overrides(cls, hook):
+            raise _declaration_error(
+                cls, f"{hook}() is not defined",
+                f"define {hook}(self{', times, z, rng' if hook == '_simulate' else ''}) "
+                "(see DEVELOPERS.md, 'Adding a model'), or set abstract = True on a shared base")
+        if not callable(getattr(cls, hook)):
+            raise _declaration_error(cls, f"{hook} is not a method", f"define it as def {hook}(self, ...)")
+    nps = getattr(cls, "normals_per_step")
+    if not callable(nps):
+        raise _declaration_error(
+            cls, f"normals_per_step = {nps!r} is not a method",
+            f"write def normals_per_step(self) -> int: return {nps!r}")
+    n = vars(cls).get("n_assets", None)
+    if n is not None and not isinstance(n, property):
+        if isinstance(n, bool) or not isinstance(n, (int, np.integer)) or n < 1:
+            raise _declaration_error(cls, f"n_assets = {n!r}", "n_assets must be a whole number >= 1")
+    degs = vars(cls).get("degenerations", ())
+    if not isinstance(degs, (tuple, list)):
+        raise _declaration_error(cls, "degenerations is not a tuple", "write degenerations = (Degeneration(...), ...)")
+    accepted = set(specs)  # the Params, and the named arguments of an own constructor
+    try:
+        accepted |= {p.name for p in inspect.signature(cls.__init__).parameters.values()
+                     if p.name != "self" and p.kind not in (p.VAR_KEYWORD, p.VAR_POSITIONAL)}
+    except (TypeError, ValueError):
+        pass
+    for d in degs:
+        if not isinstance(d, Degeneration):
+            raise _declaration_error(cls, f"degenerations holds {d!r}",
+                                     "each entry must be Degeneration(name, changes, becomes, note)")
+        unknown = sorted(set(d.changes) - accepted)
+        if unknown:
+            raise _declaration_error(
+                cls, f"degeneration {d.name!r} changes {unknown[0]!r}, which is not a parameter",
+                f"use one of its parameters: {', '.join(sorted(specs)) or 'none'}")
+        if not callable(d.becomes):
+            raise _declaration_error(cls, f"degeneration {d.name!r}: becomes={d.becomes!r} is not callable",
+                                     "give a function of the model at its limit returning the model it becomes")
+
+
+def checked_normals_per_step(model: Model) -> int:
+    """``model.normals_per_step()`` checked to be a whole number >= 1 (naming the class and
+    where it is declared when it is not)."""
+    k = model.normals_per_step()
+    if isinstance(k, bool) or not isinstance(k, (int, np.integer)) or k < 1:
+        raise _declaration_error(type(model), f"normals_per_step() returned {k!r}",
+                                 "return a whole number >= 1 (the normals one step of one path consumes)")
+    return int(k)

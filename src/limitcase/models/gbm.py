@@ -109,22 +109,28 @@ class MultiBlackScholes(Model):
         }
 
     def replace(self, **changes: Any) -> "MultiBlackScholes":
+        """A validated copy with some parameters changed, of the same class (a user's
+        subclass stays itself)."""
         values = self.params()
+        unknown = sorted(set(changes) - set(values))
+        if unknown:
+            raise ParamError(f"{type(self).__name__} has no parameter {unknown[0]!r}; "
+                             f"its parameters are: {', '.join(values)}")
         values.update(changes)
-        return MultiBlackScholes(**values)
+        return type(self)(**values)
 
     def __eq__(self, other: object) -> bool:
-        return isinstance(other, MultiBlackScholes) and self.params() == other.params()
+        return type(other) is type(self) and self.params() == other.params()  # type: ignore[attr-defined]
 
     def __hash__(self) -> int:
-        return hash(tuple(self.params().items()))
+        return hash((type(self).__qualname__, tuple(self.params().items())))
 
     def __repr__(self) -> str:
         p = self.params()
         rho = self.correlation[np.triu_indices(self.n_assets, 1)]
         rho_text = f"{rho[0]:g}" if rho.size and np.all(rho == rho[0]) else "matrix"
         return (
-            f"MultiBlackScholes(spots={list(p['spots'])}, vols={list(p['vols'])}, "
+            f"{type(self).__name__}(spots={list(p['spots'])}, vols={list(p['vols'])}, "
             f"dividends={list(p['dividends'])}, correlation={rho_text}, rate={self.rate:g})"
         )
 

@@ -50,11 +50,23 @@ from scipy.special import ndtr
 
 from ..errors import ParamError
 from ..params import Param
-from ..volsurface import VarianceSurface
+from ..volsurface import SviSlice, VarianceSurface
 from .base import Degeneration, Model, Simulated
 from .gbm import BlackScholes
 
-__all__ = ["LocalVol", "DividendSchedule"]
+__all__ = ["LocalVol", "DividendSchedule", "example_surface"]
+
+
+def example_surface(spot: float = 100.0, rate: float = 0.03, dividend: float = 0.01) -> VarianceSurface:
+    """An invented equity-like put skew (three SVI slices: 3 months, 6 months, 1 year), free
+    of static arbitrage: the surface the shipped audits and the catalogue's local-volatility
+    products run on. Demo data, not a market."""
+    return VarianceSurface(
+        (0.25, 0.5, 1.0),
+        (SviSlice(0.010, 0.06, -0.6, 0.02, 0.15), SviSlice(0.022, 0.09, -0.55, 0.03, 0.20),
+         SviSlice(0.045, 0.12, -0.5, 0.04, 0.30)),
+        spot, rate, dividend, (-0.6, 0.4), source="an invented equity skew",
+    )
 
 
 @dataclass(frozen=True, slots=True)

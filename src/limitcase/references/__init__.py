@@ -30,6 +30,13 @@ from limitcase.references.exotics import (
     simple_chooser,
 )
 
+# numerical references
+from limitcase.references.heston import heston_charfn, heston_price
+from limitcase.references.lattice import lattice_price, lattice_price_payoff
+from limitcase.references.merton import merton_charfn, merton_jump_price
+from limitcase.references.quadrature import european_by_quadrature
+from limitcase.references.fourier import FOURIER_KINDS, FOURIER_METHOD, FOURIER_TOL, fourier_price
+
 __all__ = [
     # blackscholes
     "black76",
@@ -59,16 +66,6 @@ __all__ = [
     "margrabe_exchange",
     "power_option",
     "simple_chooser",
-]
-
-# numerical references
-from limitcase.references.heston import heston_charfn, heston_price
-from limitcase.references.lattice import lattice_price, lattice_price_payoff
-from limitcase.references.merton import merton_charfn, merton_jump_price
-from limitcase.references.quadrature import european_by_quadrature
-from limitcase.references.fourier import FOURIER_KINDS, FOURIER_METHOD, FOURIER_TOL, fourier_price
-
-__all__ += [
     # lattice
     "lattice_price",
     "lattice_price_payoff",

@@ -1,0 +1,72 @@
+"""Which checks a ``check`` run makes: the products' declared checks under their own
+scenario or under one model the user chose, plus a record for each file that did not import.
+
+Kept apart from the command so that every command choosing a model (``check``, and later
+``report``, ``mutate`` and the pytest plugin) builds its checks the same way.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+from dataclasses import dataclass
+from typing import Sequence
+
+from .loader import LoadFailure, qualified_names
+from .models.base import Model
+from .product import Product
+from .reduce import Check, checks_for
+
+__all__ = ["Skipped", "plan_checks", "model_fits"]
+
+
+@dataclass(frozen=True)
+class Skipped:
+    """A product not checked under the chosen model, and why (not an error: it cannot be)."""
+
+    product: str
+    reason: str
+
+
+def model_fits(product: Product, model: Model) -> str | None:
+    """Why ``product`` cannot run under ``model`` (its asset count differs), or None."""
+    wanted = int(product.n_assets) if product.multi_asset else 1
+    if wanted != model.n_assets:
+        what = f"reads {wanted} asset{'s' if wanted != 1 else ''}"
+        return f"{what}; the model {type(model).__name__} simulates {model.n_assets}"
+    return None
+
+
+def plan_checks(classes: Sequence[type[Product]], model: Model | None = None,
+                failures: Sequence[LoadFailure] = ()) -> tuple[list[Check], list[Skipped]]:
+    """The checks of ``classes`` (each under its own scenario, or all under ``model``).
+
+    A product whose asset count differs from ``model``'s is skipped with the reason; a file
+    that did not import becomes an error check of kind ``"load"`` named after the file; two
+    classes of one name from different files are told apart as ``file.py::Class``.
+    """
+    names = qualified_names(classes)
+    checks: list[Check] = [Check(product=str(f.path), case="import", kind="load", error=f.message)
+                           for f in failures]
+    skipped: list[Skipped] = []
+    for cls in classes:
+        name = names[cls]
+        if model is not None:
+            try:
+                why = model_fits(cls(), model)
+            except Exception as exc:  # the product cannot be made at its defaults: its checks say so
+                why = None
+                checks.append(Check(product=name, case="defaults", kind="reduction",
+                                    error=f"{cls.__name__}() at its defaults raised {type(exc).__name__}: {exc}"))
+                continue
+            if why is not None:
+                skipped.append(Skipped(name, why))
+                continue
+        try:
+            found = checks_for(cls, model)
+        except Exception as exc:
+            found = [Check(product=cls.__name__, case="defaults", kind="reduction",
+                           error=f"{cls.__name__}'s checks cannot be built: {type(exc).__name__}: {exc}")]
+        if name != cls.__name__:
+            found = [dataclasses.replace(c, product=name) for c in found]
+        checks.extend(found)
+    return checks, skipped
