@@ -177,3 +177,42 @@ def test_models_are_audited_once_each_and_distinct_parameters_count():
     assert result.outcomes[-1].kind == "audit" and result.outcomes[0].kind != "audit"  # audits after the checks
     off = run_checks(checks, paths=8192, audit_models=False)
     assert not any(o.kind == "audit" for o in off.outcomes)
+
+
+MODEL_FILE = '''
+import math
+import numpy as np
+from limitcase.models import BlackScholes
+from limitcase.models.base import Simulated
+
+
+class DriftOff(BlackScholes):
+    """Black-Scholes with the drift off by {off} a year (0: the correct model)."""
+
+    def _simulate(self, times, z, rng):
+        dt = np.diff(times, prepend=0.0)
+        z *= (self.vol * np.sqrt(dt))[None, :, None]
+        z += ((self.rate - self.dividend + {off} - 0.5 * self.vol**2) * dt)[None, :, None]
+        np.cumsum(z, axis=1, out=z)
+        z += math.log(self.spot)
+        np.exp(z, out=z)
+        return Simulated(s=z, step_var=(self.vol**2 * dt)[None, :, None])
+'''
+
+
+@pytest.mark.parametrize("off, code", [(0.005, 1), (0.0, 0)])
+def test_check_with_a_user_model_file(tmp_path, off, code):
+    """``limitcase check --model file.py:DriftOff`` at default settings: off by 0.5% a year
+    fails (the run's audit), the correct model passes."""
+    from pathlib import Path
+
+    model = tmp_path / "drift_model.py"
+    model.write_text(MODEL_FILE.replace("{off}", repr(off)))
+    vanilla = Path(__file__).resolve().parents[2] / "payoffs" / "vanilla.py"
+    out = tmp_path / "run.json"
+    r = CliRunner().invoke(main, ["check", str(vanilla), "--model", f"{model}:DriftOff", "--workers", "1",
+                                  "--json", str(out)])
+    assert r.exit_code == code, r.output
+    audits = [c for c in json.loads(out.read_text())["cases"] if c["kind"] == "audit"]
+    assert {a["product"] for a in audits} == {"DriftOff"}
+    assert all(a["verdict"] == ("fail" if off else "pass") for a in audits)
