@@ -44,6 +44,7 @@ from typing import Any, Sequence
 from scipy.stats import norm
 from scipy.stats import t as student_t
 
+from .encoding import jsonable
 from .checks import Check
 from .estimates import Joint
 
@@ -91,10 +92,7 @@ class Outcome:
         d = {k: getattr(self, k) for k in self.__dataclass_fields__}
         d["legs"] = list(self.legs)
         d["controls"] = list(self.controls)
-        for k, v in d.items():
-            if isinstance(v, float) and not math.isfinite(v):
-                d[k] = None if math.isnan(v) else (1e308 if v > 0 else -1e308)
-        return d
+        return jsonable(d)
 
 
 @dataclass
