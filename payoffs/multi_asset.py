@@ -39,7 +39,12 @@ from limitcase import (
     Reduction,
     Identity,
 )
-from limitcase.references import margrabe_exchange
+from limitcase.references import (
+    MAX_QUADRATURE_ASSETS,
+    margrabe_exchange,
+    two_asset_rainbow_call,
+    weighted_sum_option,
+)
 
 from ._common import own_closed_form
 from .vanilla import EuropeanCall, EuropeanPut
@@ -139,6 +144,50 @@ def weighted_by_decay(decay: float, values: np.ndarray) -> float:
 def _prepaid(model: Model, asset: int, maturity: float) -> float:
     """S_i(0) exp(-q_i T): today's price of asset ``asset`` delivered at ``maturity``."""
     return float(model.initial()[asset] * np.exp(-model.dividend_yields()[asset] * maturity))
+
+
+def _market_of(model: Model, assets: int, product: Product, method: str) -> MultiBlackScholes:
+    """The model, if it is a MultiBlackScholes on exactly ``assets`` assets; NoReference otherwise."""
+    name = type(product).__name__
+    if not isinstance(model, MultiBlackScholes):
+        raise NoReference(f"{name}: {method} needs MultiBlackScholes, not {type(model).__name__}")
+    if model.n_assets != assets:
+        raise NoReference(f"{name}: the contract has {assets} assets; the model {model.n_assets}")
+    return model
+
+
+def _weighted_sum(product: Product, model: Model, kind: str, weights: np.ndarray, strike: float) -> float:
+    """Gauss-Hermite reference of a call or put on sum_i w_i S_i(T) - K from the terms."""
+    method = "the Gauss-Hermite weighted-sum reference"
+    if weights.size > MAX_QUADRATURE_ASSETS:
+        raise NoReference(
+            f"{type(product).__name__} with {weights.size} assets: {method} handles at most "
+            f"{MAX_QUADRATURE_ASSETS} (its cost grows as nodes**(assets - 1))"
+        )
+    m = _market_of(model, weights.size, product, method)
+    try:
+        price, _ = weighted_sum_option(
+            kind, weights, strike, product.maturity, m.spots, m.vols, m.dividends, m.correlation, m.rate
+        )
+    except ParamError as exc:  # a degenerate market the quadrature refuses: no trusted price
+        raise NoReference(f"{type(product).__name__}: {exc}") from exc
+    return price
+
+
+def _rainbow(product: Product, model: Model, kind: str) -> float:
+    """Stulz's call on the max/min of two assets from the terms and the model's numbers."""
+    if product.assets != 2:
+        raise NoReference(
+            f"{type(product).__name__} with assets={product.assets}: the closed form (Stulz 1982) is for two assets"
+        )
+    m = _market_of(model, 2, product, "Stulz's closed form")
+    s, q, v = m.spots, m.dividends, m.vols
+    try:
+        return two_asset_rainbow_call(
+            kind, s[0], s[1], product.strike, product.maturity, m.rate, q[0], q[1], v[0], v[1], m.correlation[0, 1]
+        )
+    except ParamError as exc:
+        raise NoReference(f"{type(product).__name__}: {exc}") from exc
 
 
 class _SeveralAssets(Product):
@@ -267,6 +316,15 @@ class _Basket(_SeveralAssets):
         """B(T) = sum_i w_i S_i(T), shape (paths,)."""
         return at_expiry(obs) @ self.weights
 
+    kind = "call"
+
+    def reference(self, model: Model) -> float:
+        raw = self.decay ** np.arange(self.assets)
+        return _weighted_sum(self, model, self.kind, raw / raw.sum(), self.strike)
+
+    def reference_source(self) -> str:
+        return f"Gauss-Hermite quadrature, last asset in closed form (up to {MAX_QUADRATURE_ASSETS} assets)"
+
 
 def _basket_reductions(european: type[Product], one_asset: type[Product]) -> tuple[Reduction, ...]:
     name = european.__name__
@@ -314,7 +372,9 @@ class BasketCall(_Basket):
     the discounted intrinsic value and the basket's prepaid forward.
     """
 
-    reductions = _basket_reductions(EuropeanCall, AssetCall)
+    reductions = (
+        own_closed_form("gauss_hermite_quadrature", note="the basket call against its Gauss-Hermite reference"),
+    ) + _basket_reductions(EuropeanCall, AssetCall)
     relations = (
         Monotone("strike", -1, to=lambda p: p.strike + 10.0, pathwise=True),
         Convex("strike", step=10.0, pathwise=True),
@@ -340,7 +400,10 @@ class BasketPut(_Basket):
     discounted strike.
     """
 
-    reductions = _basket_reductions(EuropeanPut, AssetPut)
+    kind = "put"
+    reductions = (
+        own_closed_form("gauss_hermite_quadrature", note="the basket put against its Gauss-Hermite reference"),
+    ) + _basket_reductions(EuropeanPut, AssetPut)
     relations = (
         Monotone("strike", +1, to=lambda p: p.strike + 10.0, pathwise=True),
         Convex("strike", step=10.0, pathwise=True),
@@ -434,6 +497,7 @@ class SpreadCall(_TwoAssets):
     strike = Param(5.0, low=0.0, doc="strike on the spread S1 - S2")
 
     reductions = (
+        own_closed_form("gauss_hermite_quadrature", note="the spread call against its Gauss-Hermite reference"),
         Reduction(
             "zero_strike",
             {"strike": 0.0},
@@ -455,6 +519,12 @@ class SpreadCall(_TwoAssets):
     def payoff(self, obs):
         s = at_expiry(obs)
         return np.maximum(s[:, 0] - s[:, 1] - self.strike, 0.0)
+
+    def reference(self, model: Model) -> float:
+        return _weighted_sum(self, model, "call", np.array([1.0, -1.0]), self.strike)
+
+    def reference_source(self) -> str:
+        return "Gauss-Hermite quadrature, asset 1 in closed form given asset 2"
 
 
 # ---------------------------------------------------------------------------------------
@@ -498,6 +568,7 @@ class BestOfCall(_SeveralAssets):
     """
 
     reductions = (
+        own_closed_form("stulz_closed_form", note="the best-of call against Stulz (1982), two assets"),
         Reduction("one_asset", **_ONE_ASSET_RAINBOW, note="the best of one asset is that asset: the European call"),
         Reduction(
             "comonotone_assets",
@@ -518,6 +589,12 @@ class BestOfCall(_SeveralAssets):
     def payoff(self, obs):
         return np.maximum(at_expiry(obs).max(axis=1) - self.strike, 0.0)
 
+    def reference(self, model: Model) -> float:
+        return _rainbow(self, model, "max")
+
+    def reference_source(self) -> str:
+        return "Stulz (1982), call on the maximum of two assets"
+
 
 class WorstOfCall(_SeveralAssets):
     """Pays max(min_i S_i(T) - K, 0) at T: a call on the worst of the assets.
@@ -531,6 +608,7 @@ class WorstOfCall(_SeveralAssets):
     strike = Param(90.0, low=0.0, doc="strike")
 
     reductions = (
+        own_closed_form("stulz_closed_form", note="the worst-of call against Stulz (1982), two assets"),
         Reduction("one_asset", **_ONE_ASSET_RAINBOW, note="the worst of one asset is that asset: the European call"),
         Reduction(
             "comonotone_assets",
@@ -550,3 +628,9 @@ class WorstOfCall(_SeveralAssets):
 
     def payoff(self, obs):
         return np.maximum(at_expiry(obs).min(axis=1) - self.strike, 0.0)
+
+    def reference(self, model: Model) -> float:
+        return _rainbow(self, model, "min")
+
+    def reference_source(self) -> str:
+        return "Stulz (1982), call on the minimum of two assets"

@@ -53,6 +53,12 @@ from limitcase.references.barrier_series import (
 )
 from limitcase.references.compound import bivariate_normal_cdf, complex_chooser, compound_option
 from limitcase.references.corridor import range_accrual
+from limitcase.references.multi_asset import (
+    MAX_QUADRATURE_ASSETS,
+    WEIGHTED_SUM_TOL,
+    two_asset_rainbow_call,
+    weighted_sum_option,
+)
 
 __all__ = [
     # blackscholes
@@ -119,4 +125,9 @@ __all__ = [
     "compound_option",
     # corridors
     "range_accrual",
+    # several assets: Stulz rainbow calls, Gauss-Hermite weighted sums
+    "MAX_QUADRATURE_ASSETS",
+    "WEIGHTED_SUM_TOL",
+    "two_asset_rainbow_call",
+    "weighted_sum_option",
 ]
