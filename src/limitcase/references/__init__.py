@@ -53,6 +53,7 @@ from limitcase.references.barrier_series import (
 )
 from limitcase.references.compound import bivariate_normal_cdf, complex_chooser, compound_option
 from limitcase.references.corridor import range_accrual
+from limitcase.references.cliquets import cliquet_by_convolution
 
 __all__ = [
     # blackscholes
@@ -118,4 +119,6 @@ __all__ = [
     "compound_option",
     # corridors
     "range_accrual",
+    # cliquets
+    "cliquet_by_convolution",
 ]
