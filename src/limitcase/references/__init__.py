@@ -44,7 +44,11 @@ from limitcase.references.discrete_barriers import (
     discrete_barrier_by_quadrature,
     discrete_double_barrier_by_quadrature,
 )
-from limitcase.references.arithmetic_asians import arithmetic_asian, arithmetic_asian_continuous
+from limitcase.references.arithmetic_asians import (
+    arithmetic_asian,
+    arithmetic_asian_continuous,
+    arithmetic_asian_floating,
+)
 from limitcase.references.barrier_series import (
     binary_barrier,
     double_barrier_option,
@@ -108,6 +112,7 @@ __all__ = [
     # arithmetic Asians (Vecer's PDE)
     "arithmetic_asian",
     "arithmetic_asian_continuous",
+    "arithmetic_asian_floating",
     # continuous double barriers, touches, binary barriers
     "binary_barrier",
     "double_barrier_option",
