@@ -49,6 +49,7 @@ __all__ = [
     "default_workers",
     "validate_run",
     "reproduce_command",
+    "reproduce_check",
 ]
 
 METHODS = ("auto", "plain", "antithetic", "control", "sobol", "control+antithetic", "control+sobol")
@@ -227,3 +228,10 @@ def reproduce_command(
     if select is not None:
         parts += ["--select", "'" + select.replace("'", "'\\''") + "'"]
     return " ".join(parts)
+
+
+def reproduce_check(run_command: str, *, seed: int, paths: int, select: str) -> str:
+    """The run's command (from :func:`reproduce_command` without seed and paths) completed
+    to reproduce one check: ``--seed``, ``--paths`` and the quoted ``--select``. The one
+    place the per-check line of every renderer is written."""
+    return f"{run_command} --seed {seed} --paths {paths} --select '" + select.replace("'", "'\\''") + "'"

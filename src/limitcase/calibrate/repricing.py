@@ -14,6 +14,7 @@ from typing import Any, Callable, Sequence
 import numpy as np
 
 from ..engine import case_key, evaluate
+from ..encoding import jsonable
 from ..errors import InputError, LimitcaseError, ParamError
 from ..models import Model
 from ..params import Param
@@ -94,7 +95,7 @@ class RepriceRow:
 
     def to_dict(self) -> dict[str, Any]:
         q = self.quote
-        return _finite({
+        return jsonable({
             "case": q.label, "line": q.line, "expiry": q.expiry, "strike": q.strike, "type": q.kind,
             "market": q.price, "bid": q.bid, "ask": q.ask, "market_iv": q.iv,
             "formula": self.formula, "formula_iv": self.formula_iv,
@@ -152,22 +153,6 @@ class Repricing:
             out.append({"expiry": float(t), "expiry_text": rows[0].quote.expiry_text, "forward": float(f),
                         "curve": sorted(curve), "market": market, "mc": mc})
         return out
-
-
-def _finite(d: Any) -> Any:
-    """JSON-safe: NaN -> None, numpy scalars -> Python numbers, recursively."""
-    if isinstance(d, dict):
-        return {k: _finite(v) for k, v in d.items()}
-    if isinstance(d, (list, tuple)):
-        return [_finite(v) for v in d]
-    if isinstance(d, (np.floating, float)):
-        x = float(d)
-        return x if math.isfinite(x) else None
-    if isinstance(d, np.integer):
-        return int(d)
-    if isinstance(d, np.bool_):
-        return bool(d)
-    return d
 
 
 def _band(q: Quote, market: Market, tolerance_vol: float) -> tuple[float, float, str]:
@@ -320,7 +305,7 @@ def reprice(
     for i, o in zip(order, final):
         rows[i] = replace(rows[i], verdict=o.verdict)
         table.append(rows[i])
-    extra = _finite({
+    extra = jsonable({
         "quotes": describe(qs),
         "calibration": cal.summary(),
         "scheme": {"heston": scheme, "local-vol": "log-euler"}.get(cal.model, "exact"),

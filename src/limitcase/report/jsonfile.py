@@ -14,11 +14,12 @@ file, and an interrupted run leaves the previous file (or none), never a partial
 from __future__ import annotations
 
 import json
-import math
 import os
 import tempfile
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
+
+from ..encoding import INFINITY, jsonable
 
 if TYPE_CHECKING:  # pragma: no cover
     from ..verdict import RunResult
@@ -26,31 +27,6 @@ if TYPE_CHECKING:  # pragma: no cover
 __all__ = ["FORMAT_VERSION", "INFINITY", "jsonable", "dumps", "write_text_atomic", "outcomes_document", "write_json"]
 
 FORMAT_VERSION = 1
-
-INFINITY = 1e308
-"""How an infinite number is written (strict JSON has no ``Infinity``)."""
-
-
-def jsonable(x: Any) -> Any:
-    """``x`` with every number made JSON-safe, recursively through dicts, lists and tuples:
-    ``inf`` -> ``1e308``, ``-inf`` -> ``-1e308``, NaN -> ``None``, numpy scalars and arrays
-    -> Python numbers and lists. Anything else is returned as it is."""
-    if isinstance(x, dict):
-        return {k: jsonable(v) for k, v in x.items()}
-    if isinstance(x, (list, tuple)):
-        return [jsonable(v) for v in x]
-    if isinstance(x, bool) or x is None or isinstance(x, str):
-        return x
-    tolist = getattr(x, "tolist", None)  # numpy scalars and arrays, without importing numpy
-    if tolist is not None and type(x).__module__ == "numpy":
-        return jsonable(tolist())
-    if isinstance(x, float):
-        if math.isnan(x):
-            return None
-        if math.isinf(x):
-            return INFINITY if x > 0 else -INFINITY
-    return x
-
 
 def dumps(doc: Any) -> str:
     """``doc`` as strict, indented JSON with the numbers encoded by :func:`jsonable`."""

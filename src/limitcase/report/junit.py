@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import io
 import xml.etree.ElementTree as ET
+from ..settings import reproduce_check
 from pathlib import Path
 from typing import TYPE_CHECKING
 
@@ -38,10 +39,8 @@ def junit_tree(result: "RunResult", command: str = "check", reproduce: str = "li
         )
         if o.verdict == "fail":
             el = ET.SubElement(case, "failure", message=o.message or "check failed")
-            el.text = (
-                f"{detail}\nreproduce: {reproduce} --seed {result.seed} --paths {result.paths} "
-                f"--select '{o.product}/{o.case}'"
-            )
+            el.text = f"{detail}\nreproduce: " + reproduce_check(reproduce, seed=result.seed, paths=result.paths,
+                                                                 select=f"{o.product}/{o.case}")
         elif o.verdict == "error":
             el = ET.SubElement(case, "error", message=o.message or "error")
             el.text = o.message

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 from typing import TYPE_CHECKING, Any, Sequence
 
+from ..settings import reproduce_check
 from .numbers import num
 
 if TYPE_CHECKING:  # pragma: no cover
@@ -97,6 +98,7 @@ def render_summary(result: "RunResult", reproduce: str = "limitcase check") -> s
         lines.append(f"{o.verdict.upper()} {o.product}/{o.case}: {o.message}")
         if o.verdict == "fail":
             lines.append(
-                f"  reproduce: {reproduce} --seed {result.seed} --paths {result.paths} --select '{o.product}/{o.case}'"
+                "  reproduce: " + reproduce_check(reproduce, seed=result.seed, paths=result.paths,
+                                                  select=f"{o.product}/{o.case}")
             )
     return "\n".join(lines)
