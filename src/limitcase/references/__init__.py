@@ -58,6 +58,7 @@ from limitcase.references.barrier_series import (
 from limitcase.references.compound import bivariate_normal_cdf, complex_chooser, compound_option
 from limitcase.references.corridor import range_accrual
 from limitcase.references.cliquets import cliquet_by_convolution
+from limitcase.references.discrete_lookbacks import DISCRETE_LOOKBACK_KINDS, discrete_lookback
 
 __all__ = [
     # blackscholes
@@ -126,4 +127,7 @@ __all__ = [
     "range_accrual",
     # cliquets
     "cliquet_by_convolution",
+    # discrete lookbacks
+    "DISCRETE_LOOKBACK_KINDS",
+    "discrete_lookback",
 ]
