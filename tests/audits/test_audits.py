@@ -133,7 +133,7 @@ def test_every_shipped_model_passes_every_audit(default_run):
     assert default_run.ok, render_table(default_run.outcomes) + "\n" + "\n".join(
         f"{o.product}/{o.case}: {o.message}" for o in default_run.outcomes if o.verdict != "pass")
     names = {o.product for o in default_run.outcomes}
-    assert names == {"BlackScholes", "MultiBlackScholes", "Heston", "Merton", "LocalVol"}
+    assert names == {"BlackScholes", "MultiBlackScholes", "Heston", "Merton", "LocalVol", "DividendBlackScholes"}
     for name in names:
         cases = {o.case for o in default_run.outcomes if o.product == name}
         for audit in ("martingale", "paths", "seeds", "steps_limit"):
@@ -149,7 +149,7 @@ def test_every_shipped_model_passes_every_audit(default_run):
 
 def test_run_records_timings_and_models(default_run):
     timings = default_run.extra["timings"]
-    assert set(timings) == {"BlackScholes", "MultiBlackScholes", "Heston", "Merton", "LocalVol"}
+    assert set(timings) == {"BlackScholes", "MultiBlackScholes", "Heston", "Merton", "LocalVol", "DividendBlackScholes"}
     assert all(set(t) == set(AUDITS) and all(s >= 0 for s in t.values()) for t in timings.values())
     doc = outcomes_document(default_run, "audit")
     assert doc["command"] == "audit" and doc["settings"]["models"]["Heston"].startswith("Heston(")

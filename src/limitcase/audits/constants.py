@@ -5,6 +5,7 @@ from __future__ import annotations
 from ..models.base import Model
 from ..models.gbm import BlackScholes, MultiBlackScholes
 from ..models.heston import Heston
+from ..models.dividends import DividendBlackScholes
 from ..models.localvol import LocalVol, example_surface
 from ..models.merton import Merton
 
@@ -47,4 +48,5 @@ def default_models() -> dict[str, Model]:
         "Heston": Heston(),
         "Merton": Merton(),
         "LocalVol": LocalVol(surface=example_surface()),
+        "DividendBlackScholes": DividendBlackScholes(),
     }

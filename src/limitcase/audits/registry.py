@@ -11,6 +11,7 @@ from ..references.fourier import FOURIER_METHOD, fourier_price
 from ..models.base import Model
 from ..models.gbm import BlackScholes, MultiBlackScholes
 from ..models.heston import Heston
+from ..models.dividends import DividendBlackScholes
 from ..models.localvol import LocalVol
 from ..models.merton import Merton
 from .probes import AuditOption
@@ -117,6 +118,19 @@ def _localvol_reference(model: Model, option: AuditOption) -> tuple[float, str]:
 
 
 register_reference(LocalVol, _localvol_reference)
+
+
+def _dividend_bs_reference(model: Model, option: AuditOption) -> tuple[float, str]:
+    from ..references import lattice_price_dividends
+
+    _call_only(model, option)
+    m: Any = model
+    value = lattice_price_dividends(m.spot, option.strike, option.maturity, m.rate, m.vol, "call", "european",
+                                    cash=tuple(m.cash), proportional=tuple(m.proportional), dividend=m.dividend)
+    return float(value), "European call by the discrete-dividend lattice (Vellekoop and Nieuwenhuis 2006)"
+
+
+register_reference(DividendBlackScholes, _dividend_bs_reference)
 
 
 def _marginal(model: Model, i: int) -> Model | None:

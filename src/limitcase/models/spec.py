@@ -37,6 +37,7 @@ from .base import Model, checked_normals_per_step, declared_at
 from .gbm import BlackScholes, MultiBlackScholes
 from .heston import Heston
 from .localvol import LocalVol
+from .dividends import DividendBlackScholes
 from .merton import Merton
 
 __all__ = ["SHIPPED_MODELS", "ModelSpec", "parse_model_spec", "resolve_model", "resolve_models"]
@@ -47,6 +48,7 @@ SHIPPED_MODELS: dict[str, type[Model]] = {
     "Heston": Heston,
     "Merton": Merton,
     "LocalVol": LocalVol,
+    "DividendBlackScholes": DividendBlackScholes,
 }
 """The shipped models by name (names are matched case-insensitively)."""
 

@@ -26,7 +26,7 @@ def junit_tree(result: "RunResult", command: str = "check", reproduce: str = "li
     suites = ET.Element("testsuites")
     suite = ET.SubElement(
         suites, "testsuite", name=f"limitcase {command}", tests=str(s["total"]),
-        failures=str(s["fail"]), errors=str(s["error"]), skipped="0",
+        failures=str(s["fail"]), errors=str(s["error"]), skipped=str(s.get("skip", 0)),
     )
     props = ET.SubElement(suite, "properties")
     for k, v in (("paths", result.paths), ("seed", result.seed), ("alpha", result.alpha)):
@@ -44,6 +44,8 @@ def junit_tree(result: "RunResult", command: str = "check", reproduce: str = "li
         elif o.verdict == "error":
             el = ET.SubElement(case, "error", message=o.message or "error")
             el.text = o.message
+        elif o.verdict == "skip":  # no reference under the model: reported, not tested
+            ET.SubElement(case, "skipped", message=o.message or "skipped")
         else:
             out = ET.SubElement(case, "system-out")
             out.text = detail
