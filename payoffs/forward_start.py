@@ -22,8 +22,9 @@ import math
 
 import numpy as np
 
-from limitcase import Convex, Monotone, NoReference, Param, ParamError, Product, Reduction
+from limitcase import Convex, Monotone, Param, ParamError, Product, Reduction
 from limitcase.references import black_scholes, forward_start
+from limitcase.references.cliquets import cliquet_by_convolution
 
 from limitcase.references.schedules import equal_steps
 
@@ -156,7 +157,12 @@ class Cliquet(Product):
     ``f = max(lf, -1)``, a strip of call spreads on the returns (forward-start options,
     Rubinstein 1990).
 
-    Limits: without the global floor -> the closed form; local floor 0 -> a global floor
+    Where a global clip can bind, the same independence makes the sum of the clipped
+    returns an n-fold convolution of one clipped return's law, priced exactly on a lattice
+    by FFT (:func:`limitcase.references.cliquets.cliquet_by_convolution`, 1e-9 per unit of N).
+
+    Limits: its own price at the defaults (global floor binding, by convolution); without
+    the global floor -> the closed form; local floor 0 -> a global floor
     at or below 0 never binds (path by path); one period with a local floor at 0 and
     nothing else, N = S0 -> the at-the-money forward-start call started today (path by
     path); no clips at all -> N times the sum of the returns (closed form).
@@ -173,6 +179,7 @@ class Cliquet(Product):
     global_cap = Param(math.inf, doc="cap on the sum of the clipped returns (inf: none)")
 
     reductions = (
+        own_closed_form(note="the law of the sum of clipped returns by n-fold convolution (FFT), global floor binding"),
         own_closed_form("no_global_floor", {"global_floor": -math.inf}, note="a strip of call spreads on the returns"),
         Reduction(
             "local_floor_zero",
@@ -222,11 +229,9 @@ class Cliquet(Product):
         spot, rate, dividend, vol = bs_inputs(model, self)
         floor, cap = max(self.local_floor, -1.0), self.local_cap
         n = self.periods
-        if self.global_floor > n * floor or self.global_cap < n * cap:
-            raise NoReference(
-                "Cliquet has a closed form only where its global floor and cap cannot bind "
-                f"(global_floor <= {n * floor:g}, global_cap >= {n * cap:g})"
-            )
+        if self.global_floor > n * floor or self.global_cap < n * cap:  # a global clip can bind
+            return cliquet_by_convolution(self.notional, self.maturity, n, rate, dividend, vol, self.local_floor,
+                                          self.local_cap, self.global_floor, self.global_cap)
         dt = np.diff(equal_steps(self.maturity, self.periods), prepend=0.0)  # from the terms
 
         def calls(strike: float) -> np.ndarray:  # E[max(S(t_i)/S(t_i-1) - strike, 0)] per period
@@ -238,4 +243,4 @@ class Cliquet(Product):
         return self.notional * math.exp(-rate * self.maturity) * float(np.sum(coupons))
 
     def reference_source(self) -> str:
-        return "strip of call spreads on the period returns"
+        return "strip of call spreads on the period returns, or their convolution where a global clip binds"

@@ -15,7 +15,9 @@ extreme is exact, so the continuous price does not depend on the number of dates
 product reads either the maximum or the minimum; both from the same ``U`` would not have
 their joint law (do not combine them in one payoff).
 
-How the limits are checked. Continuous monitoring has closed forms (Goldman, Sosin and
+How the limits are checked. Discrete monitoring (the default) is priced from the law of the
+running extreme of the log-price walk, by Lindley's recursion (Spitzer's identity; see
+:func:`limitcase.references.discrete_lookbacks.discrete_lookback`). Continuous monitoring has closed forms (Goldman, Sosin and
 Gatto 1979 for the floating strike; Conze and Viswanathan 1991 for the fixed strike). With
 one observation at T the extreme is ``max(S0, S(T))`` or ``min(S0, S(T))``: the floating
 options become the at-the-money forward-start option started today, the fixed ones the
@@ -31,6 +33,7 @@ import numpy as np
 
 from limitcase import Bound, Convex, Monotone, NoReference, Param, Product, Reduction
 from limitcase.references import lookback_fixed, lookback_floating
+from limitcase.references.discrete_lookbacks import discrete_lookback
 
 from ._common import bs_inputs, even_dates, own_closed_form, period_starts
 from .asians import GeometricAsianCall, GeometricAsianPut, GeometricFloatingAsianCall, GeometricFloatingAsianPut
@@ -65,15 +68,20 @@ class _Lookback(Product):
         bottom = (x + y - np.sqrt((x - y) ** 2 - 2.0 * obs.step_var * np.log(obs.uniforms))) / 2.0
         return np.exp(bottom.min(axis=1))
 
-    def _continuous_only(self) -> None:
-        if not self.continuous:
-            raise NoReference(f"{type(self).__name__} has a closed form for continuous monitoring only")
+    def _discrete(self, model, kind: str, strike: float = 0.0) -> float:
+        """Discrete monitoring: the recursion on the running extreme (Spitzer-Lindley),
+        on the dates rebuilt from the terms (today and ``observations`` equal steps)."""
+        spot, rate, dividend, vol = bs_inputs(model, self)
+        if vol == 0.0:
+            raise NoReference(f"{type(self).__name__} has no discrete reference at zero volatility")
+        return discrete_lookback(spot, strike, self.maturity, self.observations, rate, dividend, vol, kind)
 
 
 def _monitoring_checks() -> tuple:
     """Continuous closed form (on the default dates and on one date), and path-by-path
     monotonicity in the monitoring (discrete monitoring, the default)."""
     reductions = (
+        own_closed_form(note="discrete monitoring: the law of the running extreme by Lindley's recursion (Spitzer)"),
         own_closed_form("continuous", {"continuous": 1}, note="continuous monitoring: the closed form"),
         own_closed_form(
             "continuous_one_date",
@@ -115,7 +123,7 @@ class FloatingLookbackCall(_Lookback):
 
     Continuous monitoring: Goldman, Sosin and Gatto (1979).
 
-    Limits: continuous -> the closed form (with any number of dates); one observation ->
+    Limits: its own discrete reference; continuous -> the closed form (with any number of dates); one observation ->
     max(S(T) - S0, 0), the at-the-money forward-start call started today (path by path).
     Relations: at least that call and the geometric floating Asian call on the same dates
     (path by path); continuous and more dates never lower (path by path).
@@ -146,12 +154,13 @@ class FloatingLookbackCall(_Lookback):
         return obs.s[:, -1] - self.lowest(obs)
 
     def reference(self, model):
-        self._continuous_only()
+        if not self.continuous:
+            return self._discrete(model, "floating_call")
         spot, rate, dividend, vol = bs_inputs(model, self)
         return lookback_floating(spot, self.maturity, rate, dividend, vol, "call")
 
     def reference_source(self) -> str:
-        return "lookback_floating (Goldman-Sosin-Gatto) call"
+        return "lookback_floating (Goldman-Sosin-Gatto) call" if self.continuous else "discrete_lookback (Spitzer-Lindley recursion)"
 
 
 class FloatingLookbackPut(_Lookback):
@@ -159,7 +168,7 @@ class FloatingLookbackPut(_Lookback):
 
     Continuous monitoring: Goldman, Sosin and Gatto (1979).
 
-    Limits: continuous -> the closed form; one observation -> max(S0 - S(T), 0), the
+    Limits: its own discrete reference; continuous -> the closed form; one observation -> max(S0 - S(T), 0), the
     at-the-money forward-start put started today (path by path).
     Relations: at least that put and the geometric floating Asian put on the same dates
     (path by path); continuous and more dates never lower (path by path).
@@ -190,12 +199,13 @@ class FloatingLookbackPut(_Lookback):
         return self.highest(obs) - obs.s[:, -1]
 
     def reference(self, model):
-        self._continuous_only()
+        if not self.continuous:
+            return self._discrete(model, "floating_put")
         spot, rate, dividend, vol = bs_inputs(model, self)
         return lookback_floating(spot, self.maturity, rate, dividend, vol, "put")
 
     def reference_source(self) -> str:
-        return "lookback_floating (Goldman-Sosin-Gatto) put"
+        return "lookback_floating (Goldman-Sosin-Gatto) put" if self.continuous else "discrete_lookback (Spitzer-Lindley recursion)"
 
 
 class FixedLookbackCall(_Lookback):
@@ -203,7 +213,7 @@ class FixedLookbackCall(_Lookback):
 
     Continuous monitoring: Conze and Viswanathan (1991).
 
-    Limits: continuous -> the closed form; one observation with K >= S0 -> the European
+    Limits: its own discrete reference; continuous -> the closed form; one observation with K >= S0 -> the European
     call (max(S0, S(T)) > K only where S(T) > K; the case pins S0 and raises K to it).
     Relations: at least the European call (M >= S(T)) and the geometric Asian call on the
     same dates (M >= G), path by path; decreasing and convex in the strike (path by path);
@@ -240,12 +250,13 @@ class FixedLookbackCall(_Lookback):
         return np.maximum(self.highest(obs) - self.strike, 0.0)
 
     def reference(self, model):
-        self._continuous_only()
+        if not self.continuous:
+            return self._discrete(model, "fixed_call", self.strike)
         spot, rate, dividend, vol = bs_inputs(model, self)
         return lookback_fixed(spot, self.strike, self.maturity, rate, dividend, vol, "call")
 
     def reference_source(self) -> str:
-        return "lookback_fixed (Conze-Viswanathan) call"
+        return "lookback_fixed (Conze-Viswanathan) call" if self.continuous else "discrete_lookback (Spitzer-Lindley recursion)"
 
 
 class FixedLookbackPut(_Lookback):
@@ -253,7 +264,7 @@ class FixedLookbackPut(_Lookback):
 
     Continuous monitoring: Conze and Viswanathan (1991).
 
-    Limits: continuous -> the closed form; one observation with K <= S0 -> the European
+    Limits: its own discrete reference; continuous -> the closed form; one observation with K <= S0 -> the European
     put (the case pins S0 and lowers K to it).
     Relations: at least the European put (m <= S(T)) and the geometric Asian put on the
     same dates (m <= G), path by path; increasing and convex in the strike (path by path);
@@ -290,9 +301,10 @@ class FixedLookbackPut(_Lookback):
         return np.maximum(self.strike - self.lowest(obs), 0.0)
 
     def reference(self, model):
-        self._continuous_only()
+        if not self.continuous:
+            return self._discrete(model, "fixed_put", self.strike)
         spot, rate, dividend, vol = bs_inputs(model, self)
         return lookback_fixed(spot, self.strike, self.maturity, rate, dividend, vol, "put")
 
     def reference_source(self) -> str:
-        return "lookback_fixed (Conze-Viswanathan) put"
+        return "lookback_fixed (Conze-Viswanathan) put" if self.continuous else "discrete_lookback (Spitzer-Lindley recursion)"

@@ -144,6 +144,10 @@ TWINS = [
     (twin(GeometricFloatingAsianPut, "capped at 10",
           lambda p, o: np.clip(p.ratio * geo(o.s) - o.s[:, -1], 0.0, 10.0)), "convex_in_ratio"),
     # arithmetic floating strike
+    (twin(FloatingAsianCall, "drops the last fixing",
+          lambda p, o: np.maximum(o.s[:, -1] - p.ratio * arith(o.s[:, :-1]), 0.0)), "closed_form"),
+    (twin(FloatingAsianPut, "drops the last fixing",
+          lambda p, o: np.maximum(p.ratio * arith(o.s[:, :-1]) - o.s[:, -1], 0.0)), "closed_form"),
     (twin(FloatingAsianCall, "averages today's spot in",
           lambda p, o: np.maximum(o.s[:, -1] - p.ratio * arith(with_spot(o)), 0.0)), "one_fixing"),
     (twin(FloatingAsianCall, "ratio on the wrong leg",

@@ -14,7 +14,8 @@ import numpy as np
 import pytest
 from scipy import integrate, stats
 
-from limitcase import BlackScholes, NoReference, ParamError, price
+from limitcase import BlackScholes, Heston, NoReference, ParamError, price
+from limitcase.references.cliquets import cliquet_by_convolution
 from limitcase.testing import assert_all_pass, assert_caught, assert_every_check_has_a_twin
 from limitcase_payoffs._common import period_starts
 from limitcase_payoffs.forward_start import Cliquet, ForwardStartCall, ForwardStartPut
@@ -69,6 +70,10 @@ def fs_cases(base, call):
 
 
 CLIQUET_CASES = [
+    (twin(Cliquet, "global floor applied to each coupon instead of the sum",
+          lambda p, o: cliquet(p, o, coupons=lambda p, o, r: np.maximum(np.clip(r, p.local_floor, p.local_cap),
+                                                                         p.global_floor / p.periods))),
+     "closed_form"),
     (twin(Cliquet, "local cap applied to the sum instead of each return",
           lambda p, o: cliquet(p, o, coupons=lambda p, o, r: np.maximum(r, p.local_floor),
                                total=lambda p, s: np.clip(np.minimum(s, p.local_cap), p.global_floor, p.global_cap))),
@@ -145,7 +150,6 @@ def _clipped_return_by_quadrature(dt, model, floor, cap):
 @pytest.mark.parametrize(
     "terms",
     [
-        {},
         {"global_floor": -math.inf},
         {"local_floor": -0.05, "local_cap": 0.08, "periods": 4, "maturity": 2.0, "global_floor": -math.inf},
         {"local_floor": -math.inf, "local_cap": math.inf, "global_floor": -math.inf},
@@ -154,15 +158,23 @@ def _clipped_return_by_quadrature(dt, model, floor, cap):
 )
 def test_cliquet_closed_form_matches_quadrature(terms):
     p = Cliquet(**terms)
-    if p.global_floor > p.periods * max(p.local_floor, -1.0):
-        with pytest.raises(NoReference, match="global floor and cap cannot bind"):
-            p.reference(MODEL)
-        return
     dt = p.maturity / p.periods
     expected = p.notional * math.exp(-MODEL.rate * p.maturity) * p.periods * _clipped_return_by_quadrature(
         dt, MODEL, p.local_floor, p.local_cap
     )
     assert p.reference(MODEL) == pytest.approx(expected, rel=1e-9, abs=1e-10)
+
+
+def test_cliquet_with_a_binding_global_floor_is_priced_by_convolution():
+    """At the defaults the global floor 0 binds: the reference is the convolution price
+    (tested against quadrature in tests/references/test_cliquets.py), strictly above the
+    strip of call spreads that ignores the floor, and it refuses models other than
+    Black-Scholes."""
+    p = Cliquet()
+    assert p.reference(MODEL) == cliquet_by_convolution(100.0, 1.0, 12, 0.05, 0.02, 0.2, -0.03, 0.03, 0.0, math.inf)
+    assert p.reference(MODEL) > Cliquet(global_floor=-math.inf).reference(MODEL) + 0.1
+    with pytest.raises(NoReference):
+        p.reference(Heston())
 
 
 def test_forward_start_meets_the_published_example():

@@ -121,6 +121,7 @@ def with_payoff(base, bug, payoff):
 def floating_cases(base):
     atm = "above_atm_call" if base is FloatingLookbackCall else "above_atm_put"
     return [
+        (with_extreme(base, "forgets_the_last_date"), "closed_form"),
         (with_extreme(base, "forgets_todays_spot"), "one_observation"),
         (with_extreme(base, "variance_since_today"), "continuous"),
         (with_extreme(base, "bridge_starts_at_first_date"), "continuous_one_date"),
@@ -140,6 +141,7 @@ def fixed_cases(base):
         as_other = with_payoff(base, "written as a call", lambda p, o: np.maximum(p.lowest(o) - p.strike, 0.0))
         capped = with_payoff(base, "capped at 10", lambda p, o: np.clip(p.strike - p.lowest(o), 0.0, 10.0))
     return [
+        (with_extreme(base, "forgets_the_last_date"), "closed_form"),
         (as_other, "one_observation"),
         (with_extreme(base, "variance_since_today"), "continuous"),
         (with_extreme(base, "bridge_starts_at_first_date"), "continuous_one_date"),

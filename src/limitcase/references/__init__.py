@@ -44,7 +44,11 @@ from limitcase.references.discrete_barriers import (
     discrete_barrier_by_quadrature,
     discrete_double_barrier_by_quadrature,
 )
-from limitcase.references.arithmetic_asians import arithmetic_asian, arithmetic_asian_continuous
+from limitcase.references.arithmetic_asians import (
+    arithmetic_asian,
+    arithmetic_asian_continuous,
+    arithmetic_asian_floating,
+)
 from limitcase.references.barrier_series import (
     binary_barrier,
     double_barrier_option,
@@ -59,6 +63,8 @@ from limitcase.references.multi_asset import (
     two_asset_rainbow_call,
     weighted_sum_option,
 )
+from limitcase.references.cliquets import cliquet_by_convolution
+from limitcase.references.discrete_lookbacks import DISCRETE_LOOKBACK_KINDS, discrete_lookback
 
 __all__ = [
     # blackscholes
@@ -114,6 +120,7 @@ __all__ = [
     # arithmetic Asians (Vecer's PDE)
     "arithmetic_asian",
     "arithmetic_asian_continuous",
+    "arithmetic_asian_floating",
     # continuous double barriers, touches, binary barriers
     "binary_barrier",
     "double_barrier_option",
@@ -130,4 +137,9 @@ __all__ = [
     "WEIGHTED_SUM_TOL",
     "two_asset_rainbow_call",
     "weighted_sum_option",
+    # cliquets
+    "cliquet_by_convolution",
+    # discrete lookbacks
+    "DISCRETE_LOOKBACK_KINDS",
+    "discrete_lookback",
 ]

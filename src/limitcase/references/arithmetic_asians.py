@@ -22,7 +22,7 @@ from scipy.linalg import solve_banded
 
 from limitcase.errors import ParamError
 
-__all__ = ["arithmetic_asian", "arithmetic_asian_continuous"]
+__all__ = ["arithmetic_asian", "arithmetic_asian_continuous", "arithmetic_asian_floating"]
 
 
 def _num(name: str, value: Any, func: str, *, low: float = -math.inf, low_open: bool = False,
@@ -322,3 +322,110 @@ def arithmetic_asian_continuous(
         return _price(kind == "call", s, k, None, t, r, q, v, int(resolution))
 
     return _loop((spot, strike, maturity, rate, dividend, vol), one)
+
+
+def _price_floating(call: bool, s: float, k: float, fixings: np.ndarray, t: float, r: float, q: float,
+                    v: float, resolution: int) -> float:
+    """Floating strike: the put pays (k A - S_T)^+; the call follows by parity."""
+    b = r - q
+    sched = _Schedule(fixings, t, b)
+    realised = float(np.sum(fixings <= 0.0)) / fixings.size
+    fwd_avg = s * (realised + float(sched.g(np.array([0.0]))[0]))
+    df = math.exp(-r * t)
+    parity = s * math.exp(-q * t) - k * df * fwd_avg  # call - put = e^{-rT} E[S_T - k A]
+    if v == 0.0:
+        put_value = df * max(k * fwd_avg - s * math.exp(b * t), 0.0)
+    else:
+        y0 = -parity / s
+        tail = math.exp(-q * t)
+
+        def h(tt: np.ndarray) -> np.ndarray:
+            return k * sched.g(tt) * np.exp(-r * (t - tt) - q * tt) - tail
+
+        n_y, n_t = 200 * resolution, 100 * resolution
+        sd = v * math.sqrt(t)
+        coarse = _solve(y0, h, _time_nodes(t, fixings, n_t), v, n_y, sd)
+        fine = _solve(y0, h, _time_nodes(t, fixings, 2 * n_t), v, 2 * n_y, sd)
+        put_value = s * (4.0 * fine - coarse) / 3.0
+    return put_value + parity if call else put_value
+
+
+def arithmetic_asian_floating(
+    spot: Any,
+    ratio: Any,
+    fixing_times: Any,
+    maturity: Any,
+    rate: Any,
+    dividend: Any,
+    vol: Any,
+    kind: str = "call",
+    *,
+    resolution: int = 2,
+) -> float | np.ndarray:
+    r"""Floating-strike arithmetic-average Asian option with discrete fixings, by PDE.
+
+    Payoff at T: :math:`\max(S_T - kA, 0)` (call) or :math:`\max(kA - S_T, 0)` (put),
+    :math:`A = \frac1n\sum_{i=1}^n S_{t_i}`, k the ratio (>= 0).
+
+    Parameters
+    ----------
+    spot, ratio, maturity, rate, dividend, vol : array_like
+        Black-Scholes-Merton inputs and the ratio k, broadcast together.
+    fixing_times, kind, resolution
+        As in :func:`arithmetic_asian`.
+
+    Returns
+    -------
+    float or ndarray
+
+    Notes
+    -----
+    Vecer's change of numeraire [1]_ [2]_ covers the floating strike with the same PDE. With
+    :math:`Z = kA - S_T`, :math:`E_t[Z] = k(a_t + S_t g(t)) - S_t e^{b(T-t)}`, so
+    :math:`D_t = e^{-rT}E_t[Z]` has :math:`dD_t = e^{-rT}(k g(t) - e^{b(T-t)})\sigma S_t dW_t`
+    and, the dividend-reinvested share as numeraire, :math:`Y_t = D_t/(e^{-rt}S_te^{qt})`
+    follows :math:`dY = \sigma(h(t) - Y)dW^*` with
+
+    .. math::
+
+        h(t) = k\,g(t)\,e^{-r(T-t)-qt} - e^{-qT},
+
+    the fixed-strike h scaled by k and shifted by a constant. The put is
+    :math:`S_0E^*[Y_T^+]`, :math:`Y_0 = e^{-rT}(kE[A] - S_0e^{bT})/S_0`, solved by the same
+    Crank-Nicolson scheme and Richardson step as :func:`arithmetic_asian`; the call follows
+    from :math:`C - P = S_0e^{-qT} - k e^{-rT}E[A]`.
+
+    Limits: k = 0 gives the prepaid forward (call) and nothing (put); one fixing at T gives
+    :math:`(1 - k)^+ S_0 e^{-qT}` for the call.
+
+    Accuracy: stated 1e-6 relative to the price (absolute 1e-8 per unit of spot near zero).
+    Measured at the default resolution: two fixings against an independent scipy quadrature
+    within the stated bound; resolution 2 against 6 at the catalogue's defaults.
+
+    References
+    ----------
+    .. [1] J. Vecer, "A new PDE approach for pricing arithmetic average Asian options",
+       Journal of Computational Finance 4(4), 2001.
+    .. [2] J. Vecer, "Unified pricing of Asian options", Risk 15(6), 2002.
+    """
+    func = "arithmetic_asian_floating"
+    try:
+        f = np.asarray(fixing_times, dtype=float)
+    except (TypeError, ValueError) as exc:
+        raise ParamError(f"fixing_times={fixing_times!r} is not an array of numbers in {func}; "
+                         f"pass the fixing dates in years") from exc
+    if f.ndim != 1 or f.size == 0:
+        raise ParamError(f"fixing_times has shape {f.shape} in {func}; pass a non-empty 1-D array")
+    if np.any(np.diff(f) < 0.0) or not np.all(np.isfinite(f)) or f[0] < 0.0:
+        raise ParamError(f"fixing_times={f.tolist()!r} in {func} are not finite, >= 0 and "
+                         f"non-decreasing; pass the fixing dates in order")
+
+    def one(s: float, k: float, t: float, r: float, q: float, v: float) -> float:
+        s, _, t, r, q, v = _common(func, s, 0.0, t, r, q, v, kind, resolution)
+        k = _num("ratio", k, func, low=0.0, fix="the ratio is a multiple of the average >= 0")
+        if f[-1] > t * (1.0 + 1e-12):
+            raise ParamError(f"fixing_times[-1]={float(f[-1])!r} is after maturity={t!r} in "
+                             f"{func}; fix no later than payment")
+        return _price_floating(kind == "call", s, k, np.minimum(f, t), t, r, q, v, int(resolution))
+
+    return _loop((spot, ratio, maturity, rate, dividend, vol), one)
