@@ -30,6 +30,7 @@ __all__ = [
     "DEFAULT_REGRESSION_PATHS",
     "DEFAULT_BATCH",
     "DEFAULT_WORKERS",
+    "DEFAULT_SCHEDULER",
     "MIN_COMMAND_PATHS",
     "MIN_REGRESSION_PATHS",
     "MIN_MAX_PATHS",
@@ -86,6 +87,9 @@ DEFAULT_BATCH = BLOCK
 DEFAULT_WORKERS = None
 """Worker processes of a command-line run: ``None`` means every core this process may use
 (:func:`default_workers`); the library runs in one process unless told otherwise."""
+
+DEFAULT_SCHEDULER: str | None = None
+"""``--scheduler``: no Dask cluster; the work runs on the local process pool."""
 
 MIN_COMMAND_PATHS = 100
 """The fewest paths the command line and the pytest plugin accept per check."""

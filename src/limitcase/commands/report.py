@@ -8,7 +8,7 @@ import sys
 import click
 
 from ..report.dossier import REPORT_PATHS
-from ..cli_support import EXIT_FAIL, EXIT_OK, InputFailure, Progress, handle_errors, write_outputs
+from ..cli_support import EXIT_FAIL, EXIT_OK, InputFailure, Progress, handle_errors, scheduler_option, write_outputs
 from ..sampling import METHODS
 from ..suite import DEFAULT_ALPHA, DEFAULT_SEED
 
@@ -45,6 +45,7 @@ from ..suite import DEFAULT_ALPHA, DEFAULT_SEED
               help="A 'limitcase mutate --json' file: show each product's mutation score and survivors.")
 @click.option("--debug", is_flag=True, help="Show tracebacks for bad input.")
 @handle_errors
+@scheduler_option
 def command(paths_in: tuple[str, ...], outdir: str, paths: int, seed: int, alpha: float, points: int,
             selects: tuple[str, ...], regression_paths: int | None, method: str, workers: int | None,
             no_audits: bool, audit_paths: int | None, json_path: str | None,
