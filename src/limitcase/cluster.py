@@ -141,9 +141,9 @@ class DaskCluster:
 def _connect(address: str) -> tuple[Any, Any]:
     try:
         from distributed import Client, LocalCluster
-    except ImportError:
-        raise ParamError(f"--scheduler {address}: Dask is not installed; pip install 'limitcase[dask]' "
-                         "(or pip install 'dask[distributed]')") from None
+    except ImportError as exc:
+        raise ParamError(f"--scheduler {address}: Dask's distributed cannot be imported ({exc}); "
+                         "pip install 'limitcase[dask]' (or pip install 'dask[distributed]')") from None
     if address == LOCAL_PREFIX or address.startswith(LOCAL_PREFIX + ":"):
         text = address[len(LOCAL_PREFIX) + 1:] or str(default_workers())
         if not text.isdigit() or int(text) < 1:
