@@ -144,20 +144,29 @@ def _connect(address: str) -> tuple[Any, Any]:
     except ImportError as exc:
         raise ParamError(f"--scheduler {address}: Dask's distributed cannot be imported ({exc}); "
                          "pip install 'limitcase[dask]' (or pip install 'dask[distributed]')") from None
-    if address == LOCAL_PREFIX or address.startswith(LOCAL_PREFIX + ":"):
-        text = address[len(LOCAL_PREFIX) + 1:] or str(default_workers())
-        if not text.isdigit() or int(text) < 1:
-            raise ParamError(f"--scheduler {address}: expected local or local:N with N >= 1 worker processes")
+    n_local = _local_workers(address)
+    if n_local is not None:
         import dask
 
         with dask.config.set({"distributed.scheduler.allowed-failures": DASK_ALLOWED_FAILURES}):
-            cluster = LocalCluster(n_workers=int(text), threads_per_worker=1, processes=True, host="127.0.0.1",
+            cluster = LocalCluster(n_workers=n_local, threads_per_worker=1, processes=True, host="127.0.0.1",
                                    dashboard_address="127.0.0.1:0", silence_logs=40)
         return Client(cluster, set_as_default=False), cluster
     try:
         return Client(address, timeout=30, set_as_default=False), None
     except (OSError, TimeoutError, ValueError) as exc:
         raise ParamError(f"--scheduler {address}: cannot reach a Dask scheduler there ({exc})") from exc
+
+
+def _local_workers(address: str) -> int | None:
+    """N of ``local:N`` (``local``: every core), ``None`` for another address; a bad N is
+    bad input, named."""
+    if address != LOCAL_PREFIX and not address.startswith(LOCAL_PREFIX + ":"):
+        return None
+    text = address[len(LOCAL_PREFIX) + 1:] or str(default_workers())
+    if not text.isdigit() or int(text) < 1:
+        raise ParamError(f"--scheduler {address}: expected local or local:N with N >= 1 worker processes")
+    return int(text)
 
 
 @contextmanager
@@ -167,6 +176,7 @@ def use_scheduler(address: str | None) -> Iterator[DaskCluster | None]:
     if not address:
         yield None
         return
+    _local_workers(address)  # a bad local:N fails here, before any work
     backend = DaskCluster(address)
     push_backend(backend)
     try:
