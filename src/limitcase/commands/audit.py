@@ -14,6 +14,7 @@ import click
 
 from ..cli_support import (EXIT_FAIL, EXIT_OK, InputFailure, Progress, common_run_options, handle_errors,
                            scheduler_option, write_outputs)
+from ..settings import reproduce_command
 
 
 def _audit_names() -> tuple[str, ...]:
@@ -83,7 +84,7 @@ def command(model_names: tuple[str, ...], paths: int, seed: int, alpha: float, j
     if legend:
         click.echo(legend)
     click.echo("")
-    reproduce = f"limitcase audit {' '.join(model_names)}".rstrip()
+    reproduce = reproduce_command("audit", model_names, seed=None, paths=None, alpha=alpha)
     click.echo(render_summary(result, reproduce=reproduce))
     times = result.extra.get("timings", {})
     if times:
