@@ -22,6 +22,7 @@ from .cli_support import (
     Progress,
     common_run_options,
     handle_errors,
+    scheduler_option,
     select_checks,
     write_outputs,
 )
@@ -67,6 +68,7 @@ def main() -> None:
                    "overrides (heston:kappa=2,theta=0.04) or a file (my_model.py, my_model.py:Class:vol=0.3). "
                    "Products with another asset count are skipped.")
 @handle_errors
+@scheduler_option
 def check(paths_in: tuple[str, ...], paths: int, seed: int, alpha: float, json_path: str | None,
           junit_path: str | None, debug: bool, selects: tuple[str, ...], regression_paths: int | None,
           method: str, precision: str | None, max_paths: int, workers: int | None,

@@ -15,12 +15,12 @@ from typing import Any, Callable, Sequence
 import click
 
 from .errors import LimitcaseError
-from .settings import DEFAULT_ALPHA, DEFAULT_PATHS, DEFAULT_SEED, MIN_COMMAND_PATHS
+from .settings import DEFAULT_ALPHA, DEFAULT_PATHS, DEFAULT_SCHEDULER, DEFAULT_SEED, MIN_COMMAND_PATHS
 
 __all__ = [
     "EXIT_OK", "EXIT_FAIL", "EXIT_INPUT", "InputFailure", "handle_errors", "show_progress",
-    "Progress", "common_run_options", "select_checks", "write_outputs", "output_file", "output_dir",
-    "check_output_file", "check_output_dir",
+    "Progress", "common_run_options", "scheduler_option", "select_checks", "write_outputs", "output_file",
+    "output_dir", "check_output_file", "check_output_dir",
 ]
 
 EXIT_OK, EXIT_FAIL, EXIT_INPUT = 0, 1, 2
@@ -46,6 +46,24 @@ def handle_errors(fn: Callable[..., Any]) -> Callable[..., Any]:
             raise InputFailure(str(exc)) from exc
 
     return wrapper
+
+
+def scheduler_option(fn: Callable[..., Any]) -> Callable[..., Any]:
+    """``--scheduler ADDRESS``: run the command's work on a Dask cluster
+    (:func:`limitcase.cluster.use_scheduler`); put it below ``handle_errors``."""
+
+    @functools.wraps(fn)
+    def wrapper(*args: Any, scheduler: str | None = DEFAULT_SCHEDULER, **kwargs: Any) -> Any:
+        from .cluster import use_scheduler
+
+        with use_scheduler(scheduler):
+            return fn(*args, **kwargs)
+
+    return click.option(
+        "--scheduler", metavar="ADDRESS", default=DEFAULT_SCHEDULER,
+        help="Run the work on a Dask cluster: its scheduler's address (tcp://host:8786), or local:N "
+             "for N worker processes on this machine. Needs pip install 'limitcase[dask]'. "
+             "The numbers do not depend on it.")(wrapper)
 
 
 def show_progress() -> bool:

@@ -30,6 +30,7 @@ __all__ = [
     "DEFAULT_REGRESSION_PATHS",
     "DEFAULT_BATCH",
     "DEFAULT_WORKERS",
+    "DEFAULT_SCHEDULER",
     "MODEL_AUDIT",
     "MODEL_AUDIT_DRIFT",
     "MODEL_AUDIT_MIN_PATHS",
@@ -92,6 +93,9 @@ DEFAULT_BATCH = BLOCK
 DEFAULT_WORKERS = None
 """Worker processes of a command-line run: ``None`` means every core this process may use
 (:func:`default_workers`); the library runs in one process unless told otherwise."""
+
+DEFAULT_SCHEDULER: str | None = None
+"""``--scheduler``: no Dask cluster; the work runs on the local process pool."""
 
 MODEL_AUDIT = True
 """Whether a run of checks (:func:`limitcase.suite.run_checks`: the library, the command

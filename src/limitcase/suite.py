@@ -189,8 +189,9 @@ def _task_blocks(args: tuple[int, int, Setup, int, int, int]) -> tuple[int, list
 
 def _executor(workers: int, tasks_hint: int) -> InlinePool | ForkedPool:
     """The shared pool (:mod:`limitcase.workers`): forked workers inherit ``_RUN`` (the
-    checks, their products and cases); one process where forking is not possible."""
-    return open_pool(workers, tasks_hint, stacklevel=4)
+    checks, their products and cases), a Dask cluster is sent it; one process where
+    forking is not possible."""
+    return open_pool(workers, tasks_hint, stacklevel=4, inherit=((__name__, "_RUN"),))
 
 
 def _split(first: int, last: int, per_task: int) -> list[tuple[int, int]]:

@@ -47,6 +47,11 @@ __all__ = [
     "ForkedPool",
     "InlinePool",
     "open_pool",
+    "push_backend",
+    "pop_backend",
+    "active_backend",
+    "split_task",
+    "mark_worker",
     "default_workers",
     "in_worker",
 ]
@@ -391,12 +396,20 @@ class ForkedPool:
 
 
 def open_pool(workers: int, tasks_hint: int = 2, *, task_timeout: float | None = None,
-              stacklevel: int = 3) -> InlinePool | ForkedPool:
+              stacklevel: int = 3, inherit: Sequence[tuple[str, str]] = ()) -> Any:
     """A pool of ``workers`` forked processes, or this process where that is not possible
-    or not worth it (one worker, one task, inside a worker, no ``fork``).
+    or not worth it (one worker, one task, inside a worker, no ``fork``); inside a
+    :func:`limitcase.cluster.use_scheduler` block, the Dask cluster's workers (whatever ``workers`` says).
 
-    ``task_timeout``: the default time limit of a task, in seconds (``None``: none)."""
-    if workers <= 1 or tasks_hint <= 1 or in_worker():  # inside a worker: no pools of pools
+    ``task_timeout``: the default time limit of a task, in seconds (``None``: none).
+    ``inherit``: ``(module, name)`` of the module globals the tasks read, which forked
+    workers inherit and a Dask cluster is sent."""
+    if tasks_hint <= 1 or in_worker():  # inside a worker: no pools of pools
+        return InlinePool(task_timeout)
+    backend = active_backend()
+    if backend is not None:
+        return backend.pool(inherit, task_timeout)
+    if workers <= 1:
         return InlinePool(task_timeout)
     if "fork" not in multiprocessing.get_all_start_methods():
         warnings.warn(
@@ -412,3 +425,31 @@ def open_pool(workers: int, tasks_hint: int = 2, *, task_timeout: float | None =
         warnings.warn(f"workers={workers}: cannot start worker processes ({exc}); running in one process",
                       RuntimeWarning, stacklevel=stacklevel)
         return InlinePool(task_timeout)
+
+
+
+# ----------------------------------------------------------------------------------------
+# other backends (a Dask cluster: limitcase.cluster)
+
+_BACKENDS: list[Any] = []  # active backends, innermost last: objects with .pool(inherit, task_timeout)
+
+
+def push_backend(backend: Any) -> None:
+    """Make ``backend`` (an object with ``pool(inherit, task_timeout)``) the one
+    :func:`open_pool` uses, until :func:`pop_backend`. :func:`limitcase.cluster.use_scheduler`
+    is the way in."""
+    _BACKENDS.append(backend)
+
+
+def pop_backend(backend: Any) -> None:
+    """Undo :func:`push_backend`."""
+    _BACKENDS.remove(backend)
+
+
+def active_backend() -> Any:
+    """The innermost backend pushed, or ``None`` (the local process pool)."""
+    return _BACKENDS[-1] if _BACKENDS else None
+
+
+split_task = _split
+mark_worker = _mark_worker

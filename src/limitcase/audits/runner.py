@@ -10,6 +10,7 @@ from ..errors import InputError
 from ..models.base import Model
 from ..settings import DEFAULT_ALPHA, DEFAULT_PATHS, DEFAULT_SEED
 from ..verdict import Outcome, RunResult, finalise
+from ..workers import InlinePool, active_backend, open_pool
 from .constants import AUDITS, default_models
 from .common import _error, _name, _seed_int
 from .martingale import audit_martingale, audit_paths, audit_seeds
@@ -67,6 +68,15 @@ def audit_model(
     return out
 
 
+def _audit_task(task: tuple) -> tuple[list[Outcome], dict[str, float]]:
+    """One model's audits (a pool task): its outcomes and the seconds each audit took."""
+    model, wanted, paths, seed, alpha, drift_correction = task
+    seconds: dict[str, float] = {}
+    found = audit_model(model, list(wanted), paths=paths, seed=seed, alpha=alpha,
+                        drift_correction=drift_correction, timings=seconds)
+    return found, seconds
+
+
 def run_audits(
     models: Mapping[str, Model] | Iterable[Model] | None = None,
     audits: Sequence[str] = AUDITS,
@@ -92,17 +102,24 @@ def run_audits(
     items = list(models.items()) if isinstance(models, Mapping) else [(_name(m), m) for m in models]
     outcomes: list[Outcome] = []
     timings: dict[str, dict[str, float]] = {}
-    for i, (name, model) in enumerate(items):
-        timings[name] = {}
+    tasks = []
+    for name, model in items:
         wanted = [a for a in audits if not select
                   or any(p in f"{_name(model)}/{a}" or f"{_name(model)}/{a}" in p for p in select)]
-        found = audit_model(model, wanted, paths=paths, seed=seed, alpha=alpha,
-                            drift_correction=drift_correction, timings=timings[name])
-        if select:
-            found = [o for o in found if any(p in f"{o.product}/{o.case}" for p in select)]
-        outcomes.extend(found)
-        if progress is not None:
-            progress(i + 1, len(items))
+        tasks.append((model, tuple(wanted), paths, seed, alpha, drift_correction))
+    # one process, as always, unless a cluster was chosen (limitcase.cluster.use_scheduler):
+    # then the models spread over its workers, each audited exactly as here
+    pool = open_pool(1, len(tasks)) if active_backend() is not None else InlinePool()
+    try:
+        for i, ((name, model), (found, seconds)) in enumerate(zip(items, pool.map(_audit_task, tasks))):
+            timings[name] = seconds
+            if select:
+                found = [o for o in found if any(p in f"{o.product}/{o.case}" for p in select)]
+            outcomes.extend(found)
+            if progress is not None:
+                progress(i + 1, len(items))
+    finally:
+        pool.close()
     extra = {
         "models": {name: m.label() for name, m in items},
         "audits": list(audits),

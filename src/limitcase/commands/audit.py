@@ -12,7 +12,8 @@ import sys
 
 import click
 
-from ..cli_support import EXIT_FAIL, EXIT_OK, InputFailure, Progress, common_run_options, handle_errors, write_outputs
+from ..cli_support import (EXIT_FAIL, EXIT_OK, InputFailure, Progress, common_run_options, handle_errors,
+                           scheduler_option, write_outputs)
 from ..settings import reproduce_command
 
 
@@ -51,6 +52,7 @@ def _chosen_models(specs: tuple[str, ...], failures: list) -> dict:
               help="Also report the martingale test on paths rescaled to the forward "
                    "(the uncorrected test always runs and decides).")
 @handle_errors
+@scheduler_option
 def command(model_names: tuple[str, ...], paths: int, seed: int, alpha: float, json_path: str | None,
             junit_path: str | None, debug: bool, only: tuple[str, ...], selects: tuple[str, ...],
             drift_correction: bool) -> None:

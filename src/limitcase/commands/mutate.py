@@ -17,7 +17,7 @@ from pathlib import Path
 
 import click
 
-from ..cli_support import EXIT_FAIL, EXIT_OK, InputFailure, Progress, handle_errors, show_progress
+from ..cli_support import EXIT_FAIL, EXIT_OK, InputFailure, Progress, handle_errors, scheduler_option, show_progress
 from ..report.mutation import render_mutation
 from ..suite import DEFAULT_ALPHA, DEFAULT_PATHS, DEFAULT_SEED
 
@@ -86,6 +86,7 @@ class _Ticker:
                    "(default: 20 times the unmutated product's own checks, at least 60 s).")
 @click.option("--debug", is_flag=True, help="Show tracebacks for bad input.")
 @handle_errors
+@scheduler_option
 def command(paths_in: tuple[str, ...], paths: int, quick_paths: int | None, equivalence_paths: int | None,
             seed: int, alpha: float, workers: int | None, method: str, operators: tuple[str, ...],
             selects: tuple[str, ...], min_score: float | None, show_caught: bool, json_path: str | None,

@@ -8,7 +8,8 @@ import sys
 import click
 
 from ..cli_support import (
-    EXIT_FAIL, EXIT_OK, InputFailure, Progress, handle_errors, output_dir, output_file, write_outputs,
+    EXIT_FAIL, EXIT_OK, InputFailure, Progress, handle_errors, output_dir, output_file, scheduler_option,
+    write_outputs,
 )
 from ..settings import DEFAULT_ALPHA, DEFAULT_SEED, METHODS, REPORT_OUTPUT, REPORT_PATHS, REPORT_POINTS, reproduce_command
 
@@ -51,6 +52,7 @@ from ..settings import DEFAULT_ALPHA, DEFAULT_SEED, METHODS, REPORT_OUTPUT, REPO
                    "are shown, not judged.")
 @click.option("--debug", is_flag=True, help="Show tracebacks for bad input.")
 @handle_errors
+@scheduler_option
 def command(paths_in: tuple[str, ...], outdir: str, paths: int, seed: int, alpha: float, points: int,
             selects: tuple[str, ...], regression_paths: int | None, method: str, workers: int | None,
             no_audits: bool, audit_paths: int | None, json_path: str | None,

@@ -365,7 +365,8 @@ def run_mutation(
     original_limit = None if time_limit is not None and math.isinf(time_limit) else (
         float(time_limit) if time_limit is not None else ORIGINAL_TIME_LIMIT)
     initial = [(_task_original, (i, b), original_limit) for b in budgets for i in range(len(product_list))]
-    pool = open_pool(min(workers, max(1, len(mutants) + len(product_list))), tasks_hint=len(initial) + len(mutants))
+    pool = open_pool(min(workers, max(1, len(mutants) + len(product_list))), tasks_hint=len(initial) + len(mutants),
+                     inherit=((__name__, "_REGISTRY"),))
     settings["processes"] = pool.workers
     settings["time_limit"] = "auto" if time_limit is None else float(time_limit)
     try:
