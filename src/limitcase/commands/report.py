@@ -50,13 +50,18 @@ from ..settings import DEFAULT_ALPHA, DEFAULT_SEED, METHODS, REPORT_OUTPUT, REPO
               help="With --mutations: the mutation score each product must reach (as 'limitcase mutate "
                    "--min-score'); below it the product fails and the exit status is 1. Without it scores "
                    "are shown, not judged.")
+@click.option("--model", "model_spec", metavar="SPEC", default=None,
+              help="Every product under this model instead of its scenario (a shipped name with overrides, "
+                   "or a model file; as limitcase check --model). Products with another asset count are listed, "
+                   "not run.")
 @click.option("--debug", is_flag=True, help="Show tracebacks for bad input.")
 @handle_errors
 @scheduler_option
 def command(paths_in: tuple[str, ...], outdir: str, paths: int, seed: int, alpha: float, points: int,
             selects: tuple[str, ...], regression_paths: int | None, method: str, workers: int | None,
             no_audits: bool, audit_paths: int | None, json_path: str | None,
-            junit_path: str | None, mutations_path: str | None, min_score: float | None, debug: bool) -> None:
+            junit_path: str | None, mutations_path: str | None, min_score: float | None, debug: bool,
+            model_spec: str | None = None) -> None:
     """Write the limit-behaviour dossier of the products in PATH (files or folders of .py
     files; default: the shipped catalogue): for each product its payoff, parameters, a
     sweep toward each declared limit with the base value, relations, audits and
@@ -67,6 +72,9 @@ def command(paths_in: tuple[str, ...], outdir: str, paths: int, seed: int, alpha
     from ..report.dossier import write_dossier
     from ..settings import DEFAULT_REGRESSION_PATHS, default_workers
 
+    from ..models.spec import resolve_model
+
+    model = resolve_model(model_spec) if model_spec is not None else None
     workers = workers or default_workers()
     if min_score is not None and not mutations_path:
         raise InputFailure("--min-score judges the scores of a mutation run: give it with --mutations FILE")
@@ -87,6 +95,7 @@ def command(paths_in: tuple[str, ...], outdir: str, paths: int, seed: int, alpha
             sources=list(paths_in), audits=not no_audits, audit_paths=audit_paths, method=method,
             workers=workers,
             progress=on_progress,
+            model=model,
         )
     finally:
         progress.close()
@@ -121,6 +130,7 @@ def command(paths_in: tuple[str, ...], outdir: str, paths: int, seed: int, alpha
                 click.echo(f"FAIL {name} mutation score {100 * (sc.score or 0.0):.1f}% below the "
                            f"required {100 * mutations.threshold:.1f}%")
     click.echo(f"wrote {len(written)} files to {outdir}; open {outdir}/index.html")
-    reproduce = reproduce_command("check", paths_in, seed=None, paths=None, method=method, alpha=alpha)
+    reproduce = reproduce_command("check", paths_in, seed=None, paths=None, method=method, alpha=alpha,
+                                  model=model_spec)
     write_outputs(dossier.result, "report", json_path, junit_path, reproduce)
     sys.exit(EXIT_OK if dossier.ok else EXIT_FAIL)

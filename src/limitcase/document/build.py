@@ -61,8 +61,8 @@ def _points(estimates: Sequence[Any]) -> tuple[Point, ...]:
 
 
 def _sweep_record(product: Product, red: Any, *, paths: int, seed: int, points: int,
-                  regression_paths: int) -> SweepSeries:
-    sw = run_sweep(product, red, paths=paths, seed=seed, points=points, regression_paths=regression_paths)
+                  regression_paths: int, model: Any = None) -> SweepSeries:
+    sw = run_sweep(product, red, model, paths=paths, seed=seed, points=points, regression_paths=regression_paths)
     plan = sw.plan
     spec = type(product).param_specs().get(plan.param)
     return SweepSeries(
@@ -134,7 +134,8 @@ class _Work:
     errors: list[str] = field(default_factory=list)
 
 
-def _page_work(product: Product, paths: int, seed: int, points: int, regression_paths: int) -> _Work:
+def _page_work(product: Product, paths: int, seed: int, points: int, regression_paths: int,
+               model: Any = None) -> _Work:
     """A product's formula and its cross-check, a sweep toward each limit with the symbolic
     recognition, its convergence in paths and in the time step."""
     cls = type(product)
@@ -149,15 +150,15 @@ def _page_work(product: Product, paths: int, seed: int, points: int, regression_
     for red in cls.reductions:
         lim = LimitRecord(red.name, red.note, None)
         lim.sweep = _sweep_record(product, red, paths=paths, seed=seed, points=points,
-                                  regression_paths=regression_paths)
+                                  regression_paths=regression_paths, model=model)
         if has_formula:
             lim.recognition = _recognition_record(product, red)
         work.limits.append(lim)
-    conv = convergence(product, paths=paths, seed=seed, regression_paths=regression_paths)
+    conv = convergence(product, model, paths=paths, seed=seed, regression_paths=regression_paths)
     work.convergence = ConvergenceSeries(conv.product.label(), _points(conv.estimates), conv.error)
     if conv.error:
         work.errors.append(f"convergence run: {conv.error}")
-    st = step_sweep(product, paths=paths, seed=seed, regression_paths=regression_paths)
+    st = step_sweep(product, model, paths=paths, seed=seed, regression_paths=regression_paths)
     if st is not None:
         work.steps = StepSeries(st.product.label(), st.param, tuple(int(v) for v in st.values),
                                 _points(st.estimates), st.error)
@@ -235,6 +236,7 @@ def build_dossier(
     method: str = "auto",
     workers: int = 1,
     progress: Callable[[int, int], None] | None = None,
+    model: Any = None,
 ) -> Dossier:
     """Compute everything the dossier of ``products`` shows.
 
@@ -244,7 +246,9 @@ def build_dossier(
     ``limitcase check``. Sweeps and convergence runs use plain Monte Carlo (each point's
     standard error is then the textbook ``sigma / sqrt(n)`` one). ``selects`` keeps the
     products whose name contains one of the strings (all when empty). ``progress(done,
-    total)`` is called as checks, sweeps, convergence runs and audits finish.
+    total)`` is called as checks, sweeps, convergence runs and audits finish. ``model``:
+    every product under that model instead of its scenario (``report --model``); a product
+    whose asset count differs is listed with the reason and not run.
     """
     started = time.monotonic()
     chosen = [c for c in products if not selects or any(s in c.__name__ for s in selects)]
@@ -258,15 +262,26 @@ def build_dossier(
     spans: list[tuple[int, int]] = []
     for cls in chosen:
         desc = describe_product(cls)
+        if model is not None and desc.error is None:
+            desc.scenario = f"{model.label()} (report --model; the product's own scenario: {desc.scenario})"
         page = ProductPage(name=cls.__name__, slug=_slug(cls.__name__, taken), description=desc)
         product: Product | None = None
         checks: list[Check] = []
+        misfit = None
+        if desc.error is None and model is not None:
+            from ..plan import model_fits
+            try:
+                misfit = model_fits(cls(), model)
+            except Exception:
+                misfit = None
         if desc.error is not None:
             page.errors.append(f"{cls.__name__} {desc.error}")
+        elif misfit is not None:
+            page.errors.append(f"{cls.__name__} skipped under the model: {misfit}")
         else:
             try:
                 product = cls()
-                checks = checks_for(product)
+                checks = checks_for(product, model)
             except Exception as exc:  # a reduction or relation whose declaration code raises
                 page.errors.append(f"{cls.__name__} cannot be built at its defaults: {type(exc).__name__}: {exc}")
                 product, checks = None, []
@@ -279,7 +294,7 @@ def build_dossier(
     models: dict[str, Any] = {}
     if audits:
         for p in built:
-            m = p.scenario()
+            m = p.scenario() if model is None else model
             models.setdefault(m.label(), m)
     total = len(all_checks) + sum(len(type(p).reductions) + 2 for p in built) + len(models)
     done = [0]
@@ -294,7 +309,7 @@ def build_dossier(
                         audit_models=False)  # the dossier audits its models itself, a family of their own
     report(len(all_checks))
 
-    jobs = [(p, paths, seed, points, regression_paths) for p in built]
+    jobs = [(p, paths, seed, points, regression_paths, model) for p in built]
     placed = [(page, span) for page, product, span in zip(pages, instances, spans) if product is not None]
     for (page, (a, b)), work in zip(placed, _spread(_page_task, jobs, workers)):
         outs = result.outcomes[a:b]
@@ -315,10 +330,11 @@ def build_dossier(
                                           tick=lambda: report(done[0] + 1))
         for page, p in zip(pages, instances):
             if p is not None:
-                page.audits = per.get(p.scenario().label(), [])
+                page.audits = per.get((p.scenario() if model is None else model).label(), [])
     settings = {
         "paths": paths, "seed": seed, "alpha": alpha, "points": points, "method": method,
         "regression_paths": regression_paths, "sources": list(sources),
+        "model": None if model is None else model.label(),
         "seconds": round(time.monotonic() - started, 1),
     }
     result.extra.update(
