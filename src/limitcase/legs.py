@@ -70,15 +70,18 @@ def as_amounts(value: Any, what: str, n: int, *, integers: bool = False) -> np.n
             )
         return arr.real.astype(float)
     if kind == "O":
-        try:
-            out = arr.astype(float)
-        except (TypeError, ValueError) as exc:
-            sample = next((v for v in arr.reshape(-1) if not isinstance(v, (int, float, np.number))), None)
-            raise PayoffError(
-                f"{what} returned objects that are not numbers (e.g. {sample!r} of type {type(sample).__name__}, "
-                f"shape {arr.shape}); expected {expected}"
-            ) from exc
-        return out
+        flat = arr.reshape(-1)
+        odd = [v for v in flat[:1000] if v is None or isinstance(v, (str, bytes))]
+        if not odd:
+            try:
+                return arr.astype(float)
+            except (TypeError, ValueError):
+                odd = [v for v in flat if not isinstance(v, (int, float, np.number))][:1]
+        sample = odd[0] if odd else None  # a cast would read None as NaN and "1.5" as a number
+        raise PayoffError(
+            f"{what} returned objects that are not numbers (e.g. {sample!r} of type {type(sample).__name__}, "
+            f"shape {arr.shape}); expected {expected}"
+        )
     sample = arr.reshape(-1)[0] if arr.size else ""
     raise PayoffError(
         f"{what} returned {('strings' if kind in 'US' else f'values of dtype {arr.dtype}')} "

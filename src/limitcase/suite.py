@@ -476,8 +476,9 @@ def run_checks(
         Processes sharing the work (1: this one). The numbers do not depend on it.
     allow_long_run
         Run even when the run's estimated time is above the refusal limit
-        (:mod:`limitcase.sizing`); otherwise such a run raises :class:`ParamError` before any
-        work, with the estimate. Above the warning limit a :class:`RuntimeWarning` gives it.
+        (:mod:`limitcase.sizing`; the caller has sized the run itself, as the command line
+        does); otherwise such a run raises :class:`ParamError` before any work, with the
+        estimate, and above the warning limit a :class:`RuntimeWarning` gives the estimate.
     """
     validate_run(paths=paths, seed=seed, alpha=alpha, method=method, max_paths=max_paths, workers=workers,
                  regression_paths=regression_paths)
