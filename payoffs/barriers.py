@@ -43,7 +43,9 @@ from limitcase.symbolic import formula_symbols
 from limitcase import BlackScholes, Bound, Cashflows, Identity, Monotone, Param, Product, Reduction
 from limitcase.errors import NoReference
 from limitcase.reduce import Check, Relation
-from limitcase.references import barrier_option
+from limitcase.references import barrier_option, black_scholes
+from limitcase.references.discrete_barriers import discrete_barrier_by_quadrature
+from limitcase.references.schedules import equal_steps
 
 from ._common import bs_inputs, even_dates, own_closed_form
 from .vanilla import EuropeanCall, EuropeanPut, ZeroCouponBond
@@ -285,10 +287,25 @@ class _Discrete(_Barrier):
         return sp.Piecewise((x.rebate, stay), (vanilla, True))
 
     def reference(self, model):
-        raise NoReference(
-            f"{type(self).__name__} is monitored on {self.monitoring} dates and has no closed form; "
-            "the Broadie-Glasserman-Kou correction is an approximation, never a reference"
-        )
+        """Recursive quadrature over the monitoring dates (Andricopoulos, Widdicks, Duck and
+        Newton 2003), the dates rebuilt from the terms (``monitoring`` equal steps to T);
+        a spot on the barrier's far side today is knocked today (the product's rule)."""
+        spot, rate, dividend, vol = bs_inputs(model, self)
+        touched = spot >= self.barrier if self.up else spot <= self.barrier
+        if touched:
+            if self.out:
+                paid_now = bool(getattr(self, "rebate_at_hit", 0))
+                return self.rebate * (1.0 if paid_now else math.exp(-rate * self.maturity))
+            return float(black_scholes(spot, self.strike, self.maturity, rate, dividend, vol,
+                                       "call" if self.call else "put"))
+        return float(discrete_barrier_by_quadrature(
+            _kind(self), spot, self.strike, self.barrier, equal_steps(self.maturity, self.monitoring),
+            self.maturity, rate, dividend, vol, rebate=self.rebate,
+            rebate_at_hit=bool(getattr(self, "rebate_at_hit", 0)),
+        ))
+
+    def reference_source(self) -> str:
+        return "recursive quadrature over the monitoring dates (Andricopoulos et al. 2003)"
 
 
 class _Continuous(_Barrier):
@@ -327,11 +344,17 @@ def _down_barrier(default: float) -> Param:
     return Param(default, low=0.0, doc="barrier below the spot (0: never touched)")
 
 
+_DISCRETE_CLOSED_FORM = own_closed_form(
+    note="Monte Carlo on the monitoring dates against recursive quadrature over the same dates "
+         "(rebuilt from the terms), at the product's own parameters",
+)
+
+
 class _DiscreteOut(_Discrete):
     abstract = True
     out = True
     rebate_at_hit = _timing()
-    reductions = (_AWAY_OUT, _TOUCHED_TODAY_OUT, _TOUCHED_TODAY_PAID_NOW)
+    reductions = (_AWAY_OUT, _TOUCHED_TODAY_OUT, _TOUCHED_TODAY_PAID_NOW, _DISCRETE_CLOSED_FORM)
     relations = (
         _IN_PLUS_OUT,
         _IN_PLUS_OUT_REBATES,
@@ -350,7 +373,7 @@ class _DiscreteOut(_Discrete):
 class _DiscreteIn(_Discrete):
     abstract = True
     out = False
-    reductions = (_AWAY_IN, _TOUCHED_TODAY_IN)
+    reductions = (_AWAY_IN, _TOUCHED_TODAY_IN, _DISCRETE_CLOSED_FORM)
     relations = (
         _IN_PLUS_OUT,
         _IN_PLUS_OUT_REBATES,

@@ -43,8 +43,8 @@ class LocalVolDownAndOutCall(DownAndOutCall):
     Limits: H -> 0: the European call, priced from the implied surface (its log-Euler step
     bias declared). H at the spot: knocked today, R only. Relations: knock-in + knock-out =
     vanilla on every path; worth more as the barrier moves away; at most the vanilla.
-    (The continuous-barrier bound of the Black-Scholes family has no closed form under
-    local volatility and is left out.)
+    (The continuous-barrier bound and the quadrature closed form of the Black-Scholes family
+    have no counterpart under local volatility and are left out.)
     """
 
     reductions = (
@@ -52,7 +52,7 @@ class LocalVolDownAndOutCall(DownAndOutCall):
             _AWAY_OUT.name, _AWAY_OUT.changes, becomes=_AWAY_OUT.becomes,
             allowance=STEP_BIAS, reason=STEP_BIAS_REASON, note=_AWAY_OUT.note,
         ),
-        *(r for r in _DiscreteOut.reductions if r.name != _AWAY_OUT.name),
+        *(r for r in _DiscreteOut.reductions if r.name not in (_AWAY_OUT.name, "closed_form")),
     )
     relations = tuple(r for r in _DiscreteOut.relations if getattr(r, "name", "") != "at_least_continuous")
 

@@ -11,7 +11,6 @@ from __future__ import annotations
 import importlib
 import pkgutil
 import sys
-from typing import Any
 
 import click
 
@@ -80,7 +79,7 @@ def check(paths_in: tuple[str, ...], paths: int, seed: int, alpha: float, json_p
     import time
 
     from .loader import load_products
-    from .report import render_summary, render_table
+    from .report.terminal import render_detection, render_summary, render_table
     from .settings import default_workers
     from .suite import parse_precision, run_checks
 
@@ -127,7 +126,7 @@ def check(paths_in: tuple[str, ...], paths: int, seed: int, alpha: float, json_p
     result.extra["wall_seconds"] = round(time.monotonic() - start, 3)
     click.echo(render_table(result.outcomes))
     click.echo("")
-    click.echo(_detection_table(result))
+    click.echo(render_detection(result))
     click.echo("")
     # seed and paths are appended per failing check by the renderers
     reproduce = reproduce_command("check", paths_in, seed=None, paths=None, method=method, precision=precision,
@@ -137,41 +136,6 @@ def check(paths_in: tuple[str, ...], paths: int, seed: int, alpha: float, json_p
     click.echo(f"{result.extra['wall_seconds']:.1f} s on " + ("1 process" if used == 1 else f"{used} worker processes"))
     write_outputs(result, "check", json_path, junit_path, reproduce)
     sys.exit(EXIT_OK if result.ok else EXIT_FAIL)
-
-
-def _detection_table(result: Any) -> str:
-    """Per check: method, paths, the smallest bias detected with 90% power (and relative to the
-    reference), and under --precision whether the target was reached."""
-    tested = [o for o in result.outcomes if o.detectable_bias is not None]
-    m = len(tested)
-    precise = "precision" in result.extra
-    head = ["product", "case", "method", "paths", "detectable bias", "rel."] + (["precision"] if precise else [])
-    rows = [head]
-    for o in result.outcomes:
-        if o.detectable_bias is None:
-            continue
-        rel = f"{100 * o.detectable_relative:.2g}%" if o.detectable_relative else "-"
-        row = [o.product, o.case, o.method, str(o.paths), f"{o.detectable_bias:.3g}", rel]
-        if precise:
-            status = {"reached": "reached", "budget": "BUDGET SPENT", "allowance": "below allowance",
-                      "identity broken": "identity broken"}.get(o.precision_status, o.precision_status)
-            row.append(f"{status} ({o.precision:.3g})" if o.precision is not None else status)
-        rows.append(row)
-    widths = [max(len(r[i]) for r in rows) for i in range(len(head))]
-    lines = [f"smallest bias each check detects with 90% power (Holm over {m} check{'' if m == 1 else 's'} at alpha "
-             f"{result.alpha:g}; declared allowances included)"]
-    for k, r in enumerate(rows):
-        lines.append("  ".join(c.ljust(w) if i < 3 else c.rjust(w) for i, (c, w) in enumerate(zip(r, widths))).rstrip())
-        if k == 0:
-            lines.append("  ".join("-" * w for w in widths))
-    if precise:
-        short = [o for o in result.outcomes if o.precision_status == "budget"]
-        lines.append(f"precision {result.extra['precision']}: {m - len(short)} of {m} checks reached it"
-                     + (f"; {len(short)} spent the budget of {result.extra['max_paths']} paths" if short else ""))
-    notes = sorted({n for o in result.outcomes for n in (o.message or "").split("; ")
-                    if n.startswith(("Sobol points not used", "no underlying control")) or "control_variates skipped" in n})
-    lines.extend(f"note: {n}" for n in notes)
-    return "\n".join(lines)
 
 
 def _register_commands() -> None:

@@ -19,7 +19,8 @@ from .settings import DEFAULT_ALPHA, DEFAULT_PATHS, DEFAULT_SEED, MIN_COMMAND_PA
 
 __all__ = [
     "EXIT_OK", "EXIT_FAIL", "EXIT_INPUT", "InputFailure", "handle_errors", "show_progress",
-    "Progress", "common_run_options", "select_checks", "write_outputs",
+    "Progress", "common_run_options", "select_checks", "write_outputs", "output_file", "output_dir",
+    "check_output_file", "check_output_dir",
 ]
 
 EXIT_OK, EXIT_FAIL, EXIT_INPUT = 0, 1, 2
@@ -79,6 +80,64 @@ class Progress:
             self.bar.__exit__(None, None, None)
 
 
+def _nearest_existing(path: str) -> str:
+    p = os.path.abspath(path)
+    while not os.path.exists(p):
+        parent = os.path.dirname(p)
+        if parent == p:
+            break
+        p = parent
+    return p
+
+
+def check_output_file(path: str) -> str | None:
+    """Why ``path`` cannot be written as an output file, or ``None`` when it can (checked
+    before a run, so that its results are never lost at the end)."""
+    if os.path.isdir(path):
+        return "it is a folder"
+    if os.path.exists(path):
+        return None if os.access(path, os.W_OK) else "the file is not writable"
+    parent = os.path.dirname(os.path.abspath(path))
+    if not os.path.isdir(parent):
+        return f"the folder {parent} does not exist"
+    if not os.access(parent, os.W_OK | os.X_OK):
+        return f"the folder {parent} is not writable"
+    return None
+
+
+def check_output_dir(path: str) -> str | None:
+    """Why ``path`` cannot be (created and) written as an output folder, or ``None``."""
+    if os.path.exists(path):
+        if not os.path.isdir(path):
+            return "it is a file, not a folder"
+        return None if os.access(path, os.W_OK | os.X_OK) else "the folder is not writable"
+    base = _nearest_existing(path)
+    if not os.path.isdir(base):
+        return f"{base} is a file, not a folder"
+    if not os.access(base, os.W_OK | os.X_OK):
+        return f"cannot create it: {base} is not writable"
+    return None
+
+
+def output_file(ctx: click.Context, param: click.Parameter, value: Any) -> Any:
+    """Click callback of an output-file option: refuse an unwritable path at once (exit 2,
+    the path named) rather than after the run."""
+    if value:
+        why = check_output_file(value)
+        if why:
+            raise click.BadParameter(f"cannot write {value}: {why}", ctx=ctx, param=param)
+    return value
+
+
+def output_dir(ctx: click.Context, param: click.Parameter, value: Any) -> Any:
+    """Click callback of an output-folder option (as :func:`output_file`)."""
+    if value:
+        why = check_output_dir(value)
+        if why:
+            raise click.BadParameter(f"cannot write to {value}: {why}", ctx=ctx, param=param)
+    return value
+
+
 def common_run_options(fn: Callable[..., Any]) -> Callable[..., Any]:
     """Options shared by the commands that run checks."""
     opts = [
@@ -89,9 +148,9 @@ def common_run_options(fn: Callable[..., Any]) -> Callable[..., Any]:
         click.option("--alpha", type=click.FloatRange(0.0, 1.0, min_open=True, max_open=True),
                      default=DEFAULT_ALPHA, show_default=True,
                      help="Family-wise false-alarm rate of the run (Holm's correction)."),
-        click.option("--json", "json_path", type=click.Path(dir_okay=False, writable=True), default=None,
+        click.option("--json", "json_path", type=click.Path(dir_okay=False), default=None, callback=output_file,
                      help="Write every case to this JSON file."),
-        click.option("--junit", "junit_path", type=click.Path(dir_okay=False, writable=True), default=None,
+        click.option("--junit", "junit_path", type=click.Path(dir_okay=False), default=None, callback=output_file,
                      help="Write JUnit XML, one testcase per case, to this file."),
         click.option("--debug", is_flag=True, help="Show tracebacks for bad input."),
     ]
@@ -108,13 +167,18 @@ def select_checks(checks: Sequence[Any], patterns: Sequence[str]) -> list[Any]:
 
 
 def write_outputs(result: Any, command: str, json_path: str | None, junit_path: str | None, reproduce: str) -> None:
-    """Write the JSON and JUnit files a command was asked for, and say so."""
+    """Write the JSON and JUnit files a command was asked for, each atomically (a temporary
+    file in the same folder, then renamed: never a partial file), and say so. A path that
+    became unwritable during the run is an error naming it (exit 2)."""
     from .report.jsonfile import write_json
     from .report.junit import write_junit
 
-    if json_path:
-        write_json(json_path, result, command)
-        click.echo(f"wrote {json_path}")
-    if junit_path:
-        write_junit(junit_path, result, command, reproduce)
-        click.echo(f"wrote {junit_path}")
+    for path, write in ((json_path, lambda p: write_json(p, result, command)),
+                        (junit_path, lambda p: write_junit(p, result, command, reproduce))):
+        if not path:
+            continue
+        try:
+            write(path)
+        except OSError as exc:
+            raise InputFailure(f"cannot write {path}: {exc.strerror or exc}") from exc
+        click.echo(f"wrote {path}")

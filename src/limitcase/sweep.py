@@ -33,9 +33,13 @@ factor :data:`LEVEL_RATIO` of the spot (a barrier, a strike: a price level). Eve
 is swept without an anchor. When a reduction moves several parameters, those it pushes to
 an end of their declared range (a barrier to ``inf`` or 0, fixings to 1) are swept, and the
 others (a rebate set to 3 for the case) are held at the case's value at every point; when
-none is pushed to an end, the first listed is swept and the others held. Swept parameters move together, point by point,
-each along its own sequence (the shorter ones hold their last value before the limit); the
-picture's axis is labelled with the first.
+none is pushed to an end, the first listed is swept and the others held. A 0/1 flag (a
+whole-number parameter with two values, :func:`is_flag`) is never swept: it keeps its
+current value at every point before the limit and takes the case's value at the limit
+(when only flags move, the sweep is the two points). Swept parameters move together, point
+by point, each along its own sequence (the shorter ones hold their last value before the
+limit); the picture's axis is the one taking the most distinct values (the first listed
+on a tie), and a whole-number axis is drawn as separate points.
 
 The prices of a sweep (:func:`run_sweep`) are estimated on common random numbers (one
 :func:`limitcase.engine.evaluate` call, the case's own streams), so the curve is smooth
@@ -56,6 +60,7 @@ from .models.base import Model
 from .params import Param
 from .product import Product
 from .reduce import Check, Reduction, reduction_check
+from .settings import REPORT_POINTS
 
 __all__ = [
     "LEVEL_RATIO",
@@ -64,6 +69,7 @@ __all__ = [
     "sweep_values",
     "SweepPlan",
     "plan_sweep",
+    "is_flag",
     "Sweep",
     "run_sweep",
     "Convergence",
@@ -76,8 +82,8 @@ __all__ = [
 LEVEL_RATIO = 4.0
 """A parameter whose default is within this factor of the spot is treated as a price level."""
 
-DEFAULT_POINTS = 7
-"""Finite sweep points before the limit (the limit itself is added)."""
+DEFAULT_POINTS = REPORT_POINTS
+"""Finite sweep points before the limit (the limit itself is added): the report's default."""
 
 MAX_SHARED_GRID = 2048
 """Largest union date grid on which a sweep's products are priced together (common random
@@ -216,6 +222,12 @@ class SweepPlan:
         return tuple(p[self.param] for p in self.points)
 
 
+def is_flag(spec: Param) -> bool:
+    """A whole-number parameter with at most two values (a 0/1 switch): it is set, never
+    swept."""
+    return bool(spec.integer and spec.high - spec.low <= 1)
+
+
 def _spot(model: Model) -> float | None:
     s0 = np.asarray(model.initial(), dtype=float).reshape(-1)
     if s0.size and np.all(s0 == s0[0]) and math.isfinite(s0[0]) and s0[0] > 0:
@@ -250,6 +262,13 @@ def plan_sweep(
         )
     pushed = [k for k in moved if float(limits[k]) in (specs[k].low, specs[k].high)]
     moved = pushed or moved[:1]
+    # a 0/1 flag (or any whole-number parameter with two values) has nothing between its
+    # values: it keeps its current value until the limit, unless it is all that moves
+    flags = [k for k in moved if is_flag(specs[k])]
+    if len(flags) < len(moved):
+        moved = [k for k in moved if k not in flags]
+    else:
+        flags = []
     spot = _spot(model)
     seqs: dict[str, tuple[Any, ...]] = {}
     anchor_used: float | None = None
@@ -264,6 +283,8 @@ def plan_sweep(
         seqs[k] = sweep_values(spec, x0, float(limits[k]), anchor=anchor, points=points)
         if k == moved[0] and anchor is not None and (x0 - anchor) * (float(limits[k]) - x0) > 0:
             anchor_used = anchor
+    # the axis: the swept parameter taking the most distinct values (the first on a tie)
+    moved.sort(key=lambda k: -len(set(seqs[k])))
     n = max(len(s) for s in seqs.values())
     plan_points: list[dict[str, Any]] = []
     skipped: list[str] = []
@@ -273,6 +294,8 @@ def plan_sweep(
             for k, s in seqs.items():
                 finite = s[:-1] or (here[k],)
                 values[k] = finite[min(i, len(finite) - 1)]
+            for k in flags:
+                values[k] = here[k]
             # parameters the reduction sets but does not sweep are held at the case's value
             for k, v in limits.items():
                 values.setdefault(k, v)

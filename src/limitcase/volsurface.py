@@ -176,8 +176,9 @@ class VarianceSurface:
     spot, rate, dividend
         The market the log-moneyness refers to: ``F(T) = spot exp((rate - dividend) T)``.
     k_range
-        The log-moneyness interval on which the arbitrage tests run (normally the quoted
-        strikes); outside it the local variance is held at its value on the edge.
+        The log-moneyness interval on which the arbitrage tests run (the quoted strikes and
+        a margin, see :func:`surface_from_quotes`); outside it the local variance is held at
+        its value on the edge.
     strikes_of
         Optional, for messages: the quoted strikes per expiry.
     """
@@ -387,4 +388,15 @@ def surface_from_quotes(quotes: object) -> VarianceSurface:
     lo, hi = min(ks), max(ks)
     if hi - lo < 1e-6:  # one strike: the arbitrage tests and the local variance at that strike
         lo, hi = lo - 1e-6, hi + 1e-6
+    # Paths leave the quoted strikes: the surface is used (SVI's wings, Lee-bounded) out to
+    # three standard deviations of the longest expiry beyond them, where it is checked free of
+    # arbitrage too; where the wings' extrapolation is not, the range shrinks toward the quotes
+    # (halving the margin), and arbitrage inside the quoted strikes is refused.
+    margin = 3.0 * math.sqrt(max(float(s.w(np.array(0.0))) for s in slices))
+    for _ in range(6):
+        try:
+            return VarianceSurface(expiries, slices, market.spot, r, q, (lo - margin, hi + margin),
+                                   source=str(qs.path))  # type: ignore[attr-defined]
+        except SurfaceArbitrage:
+            margin /= 2.0
     return VarianceSurface(expiries, slices, market.spot, r, q, (lo, hi), source=str(qs.path))  # type: ignore[attr-defined]

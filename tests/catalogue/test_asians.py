@@ -102,6 +102,8 @@ TWINS = [
      "above_geometric"),
     (twin(ArithmeticAsianCall, "written as a put", lambda p, o: np.maximum(p.strike - arith(o.s), 0.0)),
      "decreasing_in_strike"),
+    (twin(ArithmeticAsianCall, "drops the last fixing", lambda p, o: np.maximum(arith(o.s[:, :-1]) - p.strike, 0.0)),
+     "closed_form"),
     (twin(ArithmeticAsianCall, "capped at 10, a call spread", lambda p, o: np.clip(arith(o.s) - p.strike, 0.0, 10.0)),
      "convex_in_strike"),
     (twin(ArithmeticAsianPut, "averages today's spot in", lambda p, o: np.maximum(p.strike - arith(with_spot(o)), 0.0)),
@@ -112,6 +114,8 @@ TWINS = [
      "below_geometric"),
     (twin(ArithmeticAsianPut, "written as a call", lambda p, o: np.maximum(arith(o.s) - p.strike, 0.0)),
      "increasing_in_strike"),
+    (twin(ArithmeticAsianPut, "drops the last fixing", lambda p, o: np.maximum(p.strike - arith(o.s[:, :-1]), 0.0)),
+     "closed_form"),
     (twin(ArithmeticAsianPut, "capped at 10, a put spread", lambda p, o: np.clip(p.strike - arith(o.s), 0.0, 10.0)),
      "convex_in_strike"),
     # geometric floating strike

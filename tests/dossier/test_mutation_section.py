@@ -8,7 +8,7 @@ from click.testing import CliRunner
 
 from limitcase.cli import main
 from limitcase.errors import InputError
-from limitcase.report.dossier import load_mutations
+from limitcase.document import load_mutations
 
 
 def _mutate_json(path):

@@ -5,7 +5,7 @@ parameters' linearised standard errors, the fit errors and the Feller condition.
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from typing import Any
 
 import numpy as np
@@ -13,13 +13,14 @@ from scipy.optimize import least_squares
 from scipy.stats import qmc
 
 from ..errors import InputError, ParamError
-from ..models import BlackScholes, Heston, Model
+from ..models import BlackScholes, Heston, LocalVol, Model
 from ..quotes import Market, QuoteSet
 from ..references import black_scholes, heston_price, implied_vol
 from ..references.heston import HestonGrid
 from ..settings import REPRICE_STARTS as DEFAULT_STARTS
 from ..settings import REPRICE_STEPS_PER_YEAR as DEFAULT_STEPS_PER_YEAR
 from ..settings import REPRICE_TOLERANCE_VOL as DEFAULT_TOLERANCE_VOL
+from ..volsurface import VarianceSurface, surface_from_quotes
 from .pricing import HestonSurface, bs_vega, heston_lewis_prices
 
 __all__ = [
@@ -36,7 +37,7 @@ __all__ = [
     "calibrate",
 ]
 
-MODELS = {"heston": "Heston", "black-scholes": "Black-Scholes"}
+MODELS = {"heston": "Heston", "black-scholes": "Black-Scholes", "local-vol": "LocalVol"}
 """Calibratable models: command-line name -> report name."""
 
 WEIGHTINGS = ("vega", "spread")
@@ -94,6 +95,7 @@ class Calibration:
     scales: np.ndarray = field(default_factory=lambda: np.zeros(0))
     jacobian: np.ndarray = field(default_factory=lambda: np.zeros((0, 0)))
     notes: tuple[str, ...] = ()
+    surface: VarianceSurface | None = None
 
     @property
     def market(self) -> Market:
@@ -107,6 +109,9 @@ class Calibration:
         if self.model == "heston":
             substeps = max(1, math.ceil(expiry * steps_per_year - 1e-9))
             return Heston(scheme=scheme, spot=m.spot, rate=r, dividend=q, substeps=substeps, **self.params)
+        if self.model == "local-vol":
+            substeps = max(1, math.ceil(expiry * steps_per_year - 1e-9))
+            return LocalVol(surface=self.surface, spot=m.spot, rate=r, dividend=q, substeps=substeps)
         return BlackScholes(spot=m.spot, rate=r, dividend=q, vol=self.expiry_vols[expiry])
 
     def formula(self, expiry: float, strikes: Any, kind: str) -> np.ndarray:
@@ -118,6 +123,9 @@ class Calibration:
         if self.model == "heston":
             p = [self.params[n] for n in HESTON_PARAMS]
             return np.atleast_1d(heston_price(m.spot, k, expiry, r, q, *p, kind=kind))
+        if self.model == "local-vol":
+            lv = self.model_for(expiry)
+            return np.array([lv.european_price(kind, float(x), expiry) for x in k])
         return np.atleast_1d(black_scholes(m.spot, k, expiry, r, q, self.expiry_vols[expiry], kind))
 
     def parameter_covariance(self, noise_sd: Any) -> np.ndarray:
@@ -258,7 +266,7 @@ def calibrate(
     qs
         Validated quotes (:func:`limitcase.quotes.load_quotes`).
     model
-        ``"heston"`` or ``"black-scholes"`` (:data:`MODELS`).
+        ``"heston"``, ``"black-scholes"`` or ``"local-vol"`` (:data:`MODELS`).
     weighting
         ``"vega"``: residual :math:`\sqrt{w_i}(P_i - P_i^{mkt})/\mathcal V_i`, the price error
         over the Black-Scholes vega at the market's implied volatility, about the error in
@@ -281,7 +289,10 @@ def calibrate(
     start. Standard errors: :math:`s^2 (J^TJ)^{-1}` with :math:`s^2` the residual sum of
     squares over ``m - 5`` (classical nonlinear least squares; meaningless at a bound).
     The Feller condition :math:`2\kappa\theta \ge \sigma^2` (Feller 1951) says whether the
-    variance can reach zero; the QE scheme handles both cases.
+    variance can reach zero; the QE scheme handles both cases. Local volatility: one raw
+    SVI slice per expiry fitted to the implied total variances, the surface refused if it
+    has static arbitrage (:func:`limitcase.volsurface.surface_from_quotes`), and Dupire's
+    local volatility simulated by log-Euler; its formula prices are the surface's own.
 
     References
     ----------
@@ -299,6 +310,8 @@ def calibrate(
     scales = _scales(qs, fitted, weighting)
     if model == "black-scholes":
         return _calibrate_bs(qs, fitted, scales, weighting)
+    if model == "local-vol":
+        return _calibrate_localvol(qs, fitted, scales, weighting)
     return _calibrate_heston(qs, fitted, scales, weighting, starts)
 
 
@@ -357,6 +370,33 @@ def _calibrate_bs(qs: QuoteSet, fitted: np.ndarray, scales: np.ndarray, weightin
         rmse_price=rp, rmse_vol=rv, max_vol_error=mv, within_spread=ws, cost=cost, starts=1, nfev=nfev,
         expiry_vols=vols, fitted=fitted, scales=scales,
     )
+
+
+def _calibrate_localvol(qs: QuoteSet, fitted: np.ndarray, scales: np.ndarray, weighting: str) -> Calibration:
+    """The SVI surface of the quotes (weights as given; the fit is in total variance, not in
+    the chosen price weighting, which only scores the result) and its formula prices."""
+    surface = surface_from_quotes(qs)
+    params: dict[str, float] = {}
+    texts = {q.expiry: q.expiry_text for q in qs.quotes}
+    for t, sl in zip(surface.expiries, surface.slices):
+        for name in ("a", "b", "rho", "m", "s"):
+            params[f"svi_{name}[T={texts.get(float(t), f'{t:g}')}]"] = float(getattr(sl, name))
+    stub = Calibration(
+        model="local-vol", name=MODELS["local-vol"], quotes=qs, params=params, stderr={k: None for k in params},
+        at_bound=(), weighting=weighting, formula_prices=np.zeros(0), formula_ivs=np.zeros(0), rmse_price=0.0,
+        rmse_vol=0.0, max_vol_error=0.0, within_spread=(0, 0), cost=0.0, starts=1, nfev=0, surface=surface,
+    )
+    prices = np.empty(len(qs))
+    for t, idx in qs.by_expiry():
+        for i in idx:
+            q = qs.quotes[i]
+            prices[i] = stub.formula(t, [q.strike], q.kind)[0]
+    ivs = _ivs(qs, prices)
+    rp, rv, mv, ws = _fit_errors(qs, prices, ivs, fitted)
+    return replace(stub, formula_prices=prices, formula_ivs=ivs, rmse_price=rp, rmse_vol=rv, max_vol_error=mv,
+                   within_spread=ws, fitted=fitted, scales=scales,
+                   notes=(f"SVI slices at {len(surface.expiries)} expiries, free of static arbitrage on "
+                          f"log-moneyness [{surface.k_range[0]:.3g}, {surface.k_range[1]:.3g}]",))
 
 
 def _calibrate_heston(qs: QuoteSet, fitted: np.ndarray, scales: np.ndarray, weighting: str, starts: int) -> Calibration:

@@ -14,6 +14,7 @@ from typing import Any, Callable, Sequence
 import numpy as np
 
 from ..engine import case_key, evaluate
+from ..encoding import jsonable
 from ..errors import InputError, LimitcaseError, ParamError
 from ..models import Model
 from ..params import Param
@@ -94,7 +95,7 @@ class RepriceRow:
 
     def to_dict(self) -> dict[str, Any]:
         q = self.quote
-        return _finite({
+        return jsonable({
             "case": q.label, "line": q.line, "expiry": q.expiry, "strike": q.strike, "type": q.kind,
             "market": q.price, "bid": q.bid, "ask": q.ask, "market_iv": q.iv,
             "formula": self.formula, "formula_iv": self.formula_iv,
@@ -152,22 +153,6 @@ class Repricing:
             out.append({"expiry": float(t), "expiry_text": rows[0].quote.expiry_text, "forward": float(f),
                         "curve": sorted(curve), "market": market, "mc": mc})
         return out
-
-
-def _finite(d: Any) -> Any:
-    """JSON-safe: NaN -> None, numpy scalars -> Python numbers, recursively."""
-    if isinstance(d, dict):
-        return {k: _finite(v) for k, v in d.items()}
-    if isinstance(d, (list, tuple)):
-        return [_finite(v) for v in d]
-    if isinstance(d, (np.floating, float)):
-        x = float(d)
-        return x if math.isfinite(x) else None
-    if isinstance(d, np.integer):
-        return int(d)
-    if isinstance(d, np.bool_):
-        return bool(d)
-    return d
 
 
 def _band(q: Quote, market: Market, tolerance_vol: float) -> tuple[float, float, str]:
@@ -307,8 +292,9 @@ def reprice(
                 z=(d_band / se if se > 0 else None), p_value=min(1.0, 2.0 * min(p_b, p_f)),
                 allowance=half, allowance_reason=f"half-width of the {source} band" if half > 0 else "",
                 sense="==", message=msg, method=joint.method, dof=dof,
-                target_source=f"{source}; formula: " + ("Heston characteristic function (Lewis integral)"
-                                                        if cal.model == "heston" else "Black-Scholes closed form"),
+                target_source=f"{source}; formula: " + {
+                    "heston": "Heston characteristic function (Lewis integral)",
+                    "local-vol": "the SVI surface's own price (Dupire)"}.get(cal.model, "Black-Scholes closed form"),
                 note=f"market {q.price:.6g} (line {q.line} of {qs.path})", **base,
             )
         if progress is not None:
@@ -319,14 +305,15 @@ def reprice(
     for i, o in zip(order, final):
         rows[i] = replace(rows[i], verdict=o.verdict)
         table.append(rows[i])
-    extra = _finite({
+    extra = jsonable({
         "quotes": describe(qs),
         "calibration": cal.summary(),
-        "scheme": scheme if cal.model == "heston" else "exact",
-        "steps_per_year": steps_per_year if cal.model == "heston" else None,
+        "scheme": {"heston": scheme, "local-vol": "log-euler"}.get(cal.model, "exact"),
+        "steps_per_year": steps_per_year if cal.model in ("heston", "local-vol") else None,
         "tolerance_vol_points": tolerance_vol,
         "simulated_models": used_models,
         "table": [r.to_dict() for r in table],
     })
     result = RunResult(final, paths=paths, seed=seed, alpha=alpha, extra=extra)
-    return Repricing(cal, table, result, scheme, steps_per_year, tolerance_vol)
+    shown = {"heston": scheme, "local-vol": "log-euler"}.get(cal.model, "exact")
+    return Repricing(cal, table, result, shown, steps_per_year, tolerance_vol)

@@ -3,88 +3,48 @@ reductions and relations (nothing is priced)."""
 
 from __future__ import annotations
 
-import inspect
-import json
 import math
-from pathlib import Path
 from typing import Any
 
 import click
 
 from ..cli_support import InputFailure, handle_errors
+from ..report.jsonfile import INFINITY, dumps
+from ..report.numbers import num
 
 FORMAT_VERSION = 1
 
 
-def _number(x: Any) -> Any:
-    """JSON-safe number: infinities as +-1e308, as in every limitcase JSON file."""
-    if isinstance(x, float) and math.isinf(x):
-        return 1e308 if x > 0 else -1e308
-    return x
+def describe(cls: type) -> dict[str, Any]:
+    """A product class as a JSON-ready record (infinities as 1e308, as in every limitcase
+    JSON file): declarations only, no pricing."""
+    from ..document.describe import describe_product
+    from ..report.jsonfile import jsonable
+
+    desc = describe_product(cls)
+    rec: dict[str, Any] = {
+        "name": desc.name, "source": desc.source, "summary": desc.summary, "multi_asset": desc.multi_asset,
+        "params": [{"name": p.name, "default": p.default, "low": p.low, "high": p.high, "low_open": p.low_open,
+                    "high_open": p.high_open, "integer": p.integer, "range": p.range, "doc": p.doc}
+                   for p in desc.params],
+        "reductions": [], "relations": [], "error": desc.error,
+    }
+    if desc.error is None:
+        rec["scenario"] = desc.scenario
+        rec["early_exercise"] = desc.early_exercise
+    rec["reductions"] = [{"name": r.name, "exact": r.exact, "note": r.note, "reason": r.reason, "changes": r.changes,
+                          "becomes": r.becomes, "model_changes": r.model_changes, "error": r.error}
+                         for r in desc.reductions]
+    rec["relations"] = [{"name": r.name, "type": r.type, "sense": r.sense, "pathwise": r.pathwise, "what": r.what,
+                         "error": r.error} for r in desc.relations]
+    return jsonable(rec)
 
 
 def _text(x: Any) -> str:
-    if isinstance(x, float):
-        return "inf" if x == math.inf else "-inf" if x == -math.inf else f"{x:g}"
-    return str(x)
-
-
-def describe(cls: type) -> dict[str, Any]:
-    """A product class as a JSON-ready record: declarations only, no pricing."""
-    from ..reduce import limit_product
-
-    try:
-        source = str(Path(inspect.getfile(cls)).resolve())
-    except (TypeError, OSError):
-        source = cls.__module__
-    doc = inspect.getdoc(cls) or ""
-    rec: dict[str, Any] = {
-        "name": cls.__name__,
-        "source": source,
-        "summary": doc.strip().split("\n\n")[0].replace("\n", " ") if doc else "",
-        "multi_asset": bool(getattr(cls, "multi_asset", False)),
-        "params": [],
-        "reductions": [],
-        "relations": [],
-        "error": None,
-    }
-    for name, spec in cls.param_specs().items():
-        rec["params"].append({
-            "name": name, "default": _number(spec.default), "low": _number(spec.low), "high": _number(spec.high),
-            "low_open": spec.low_open, "high_open": spec.high_open, "integer": spec.integer,
-            "range": spec.range_text(), "doc": spec.doc,
-        })
-    try:
-        product = cls()
-        model = product.scenario()
-        rec["scenario"] = model.label()
-        rec["early_exercise"] = product.early_exercise
-    except Exception as exc:
-        rec["error"] = f"cannot be built at its defaults: {type(exc).__name__}: {exc}"
-        return rec
-    for red in cls.reductions:
-        entry: dict[str, Any] = {"name": red.name, "exact": bool(red.exact and red.reference_model is None),
-                                 "note": red.note, "reason": red.reason, "changes": {}, "becomes": None,
-                                 "model_changes": {k: _number(v) for k, v in dict(red.model_changes).items()},
-                                 "error": None}
-        try:
-            at_limit = limit_product(product, red)
-            entry["changes"] = {k: _number(at_limit.params()[k]) for k in red.changes if k in at_limit.params()}
-            entry["becomes"] = red.becomes(at_limit).label()
-        except Exception as exc:
-            entry["error"] = f"{type(exc).__name__}: {exc}"
-        rec["reductions"].append(entry)
-    for rel in cls.relations:
-        kind = type(rel).__name__
-        try:
-            for chk in rel.checks(product, model):
-                rec["relations"].append({"name": chk.case, "type": kind, "sense": chk.sense,
-                                         "pathwise": bool(chk.rules), "what": chk.note or chk.target_source,
-                                         "error": chk.error})
-        except Exception as exc:
-            rec["relations"].append({"name": getattr(rel, "name", "") or kind, "type": kind, "sense": None,
-                                     "pathwise": None, "what": "", "error": f"{type(exc).__name__}: {exc}"})
-    return rec
+    """A listed number: a JSON-encoded infinity (1e308) shown as inf again."""
+    if isinstance(x, float) and abs(x) >= INFINITY:
+        x = math.copysign(math.inf, x)
+    return num(x)
 
 
 def _render(rec: dict[str, Any]) -> str:
@@ -99,7 +59,7 @@ def _render(rec: dict[str, Any]) -> str:
         lines.append("  parameters:")
         w = max(len(p["name"]) for p in rec["params"])
         for p in rec["params"]:
-            default = _text(p["default"] if abs(p["default"]) < 1e308 else math.copysign(math.inf, p["default"]))
+            default = _text(p["default"])
             lines.append(f"    {p['name'].ljust(w)}  {default:>8}  {p['range']:<22} {p['doc']}".rstrip())
     if rec["reductions"]:
         lines.append("  reductions:")
@@ -107,8 +67,7 @@ def _render(rec: dict[str, Any]) -> str:
             if r["error"]:
                 lines.append(f"    {r['name']}: ERROR {r['error']}")
                 continue
-            ch = ", ".join(f"{k}={_text(v if abs(v) < 1e308 else math.copysign(math.inf, v))}" if isinstance(v, float)
-                           else f"{k}={v}" for k, v in r["changes"].items()) or "(own parameters)"
+            ch = ", ".join(f"{k}={_text(v)}" for k, v in r["changes"].items()) or "(own parameters)"
             how = "path by path" if r["exact"] else "in price"
             lines.append(f"    {r['name']}: {ch} -> {r['becomes']} ({how})")
     if rec["relations"]:
@@ -138,7 +97,7 @@ def command(paths_in: tuple[str, ...], as_json: bool, debug: bool) -> None:
     records = [describe(c) for c in products]
     if as_json:
         doc = {"tool": "limitcase", "format": FORMAT_VERSION, "command": "list", "products": records}
-        click.echo(json.dumps(doc, indent=2, allow_nan=False))
+        click.echo(dumps(doc))
         return
     click.echo("\n\n".join(_render(r) for r in records))
     n_red = sum(len(r["reductions"]) for r in records)

@@ -7,15 +7,16 @@ import sys
 
 import click
 
-from ..report.dossier import REPORT_PATHS
-from ..cli_support import EXIT_FAIL, EXIT_OK, InputFailure, Progress, handle_errors, write_outputs
-from ..sampling import METHODS
-from ..suite import DEFAULT_ALPHA, DEFAULT_SEED
+from ..cli_support import (
+    EXIT_FAIL, EXIT_OK, InputFailure, Progress, handle_errors, output_dir, output_file, write_outputs,
+)
+from ..settings import DEFAULT_ALPHA, DEFAULT_SEED, METHODS, REPORT_OUTPUT, REPORT_PATHS, REPORT_POINTS
 
 
 @click.command("report")
 @click.argument("paths_in", metavar="[PATH]...", nargs=-1, type=click.Path())
-@click.option("-o", "--output", "outdir", type=click.Path(file_okay=False), default="limitcase-report", show_default=True,
+@click.option("-o", "--output", "outdir", type=click.Path(file_okay=False), default=REPORT_OUTPUT, show_default=True,
+              callback=output_dir,
               help="Folder to write index.html, one page per product, Markdown twins and img/.")
 @click.option("--paths", type=click.IntRange(min=100), default=REPORT_PATHS, show_default=True,
               help="Monte Carlo paths per check and per sweep point (raise it for sharper pictures).")
@@ -23,7 +24,7 @@ from ..suite import DEFAULT_ALPHA, DEFAULT_SEED
               help="Seed of the run; every case draws its own streams from it.")
 @click.option("--alpha", type=click.FloatRange(0.0, 1.0, min_open=True, max_open=True), default=DEFAULT_ALPHA,
               show_default=True, help="Family-wise false-alarm rate of the run (Holm's correction).")
-@click.option("--points", type=click.IntRange(2, 20), default=7, show_default=True,
+@click.option("--points", type=click.IntRange(2, 20), default=REPORT_POINTS, show_default=True,
               help="Sweep points before each limit.")
 @click.option("--select", "selects", multiple=True, metavar="TEXT",
               help="Only the products whose name contains TEXT (repeatable).")
@@ -33,36 +34,45 @@ from ..suite import DEFAULT_ALPHA, DEFAULT_SEED
               help="Variance reduction of the checks, as `limitcase check --method` (sweeps and "
                    "convergence pictures use plain Monte Carlo).")
 @click.option("--workers", type=click.IntRange(min=1), default=None,
-              help="Worker processes for the checks (default: all cores). The numbers do not depend on it.")
+              help="Worker processes for the checks, sweeps, convergence runs, audits and pictures (default: all "
+                   "cores). The numbers do not depend on it.")
 @click.option("--no-audits", is_flag=True, help="Do not run the engine audits of the scenario models.")
 @click.option("--audit-paths", type=click.IntRange(min=1000), default=None,
               help="Paths of each engine audit (default 100000, as limitcase.audits uses).")
-@click.option("--json", "json_path", type=click.Path(dir_okay=False, writable=True), default=None,
+@click.option("--json", "json_path", type=click.Path(dir_okay=False), default=None, callback=output_file,
               help="Also write every case to this JSON file.")
-@click.option("--junit", "junit_path", type=click.Path(dir_okay=False, writable=True), default=None,
+@click.option("--junit", "junit_path", type=click.Path(dir_okay=False), default=None, callback=output_file,
               help="Also write JUnit XML, one testcase per case, to this file.")
 @click.option("--mutations", "mutations_path", type=click.Path(dir_okay=False), default=None,
               help="A 'limitcase mutate --json' file: show each product's mutation score and survivors.")
+@click.option("--min-score", type=click.FloatRange(0.0, 1.0), default=None,
+              help="With --mutations: the mutation score each product must reach (as 'limitcase mutate "
+                   "--min-score'); below it the product fails and the exit status is 1. Without it scores "
+                   "are shown, not judged.")
 @click.option("--debug", is_flag=True, help="Show tracebacks for bad input.")
 @handle_errors
 def command(paths_in: tuple[str, ...], outdir: str, paths: int, seed: int, alpha: float, points: int,
             selects: tuple[str, ...], regression_paths: int | None, method: str, workers: int | None,
             no_audits: bool, audit_paths: int | None, json_path: str | None,
-            junit_path: str | None, mutations_path: str | None, debug: bool) -> None:
+            junit_path: str | None, mutations_path: str | None, min_score: float | None, debug: bool) -> None:
     """Write the limit-behaviour dossier of the products in PATH (files or folders of .py
     files; default: the shipped catalogue): for each product its payoff, parameters, a
     sweep toward each declared limit with the base value, relations, audits and
     convergence pictures. Exit 0 when every case passes, 1 otherwise."""
-    from ..engine import DEFAULT_REGRESSION_PATHS
+    from ..document import build_dossier, load_mutations
+    from ..document.build import parallel_map
     from ..loader import load_products
-    from ..report.dossier import build_dossier, load_mutations, write_dossier
-    from ..suite import default_workers
+    from ..report.dossier import write_dossier
+    from ..settings import DEFAULT_REGRESSION_PATHS, default_workers
 
-    mutations = load_mutations(mutations_path) if mutations_path else None
+    workers = workers or default_workers()
+    if min_score is not None and not mutations_path:
+        raise InputFailure("--min-score judges the scores of a mutation run: give it with --mutations FILE")
+    mutations = load_mutations(mutations_path, min_score) if mutations_path else None
     products = load_products(paths_in)
     if not products:
         raise InputFailure(f"no Product classes found in {', '.join(paths_in) or 'the catalogue'}")
-    progress = Progress("report", 1)
+    progress = Progress("report: checks, sweeps, convergence, audits", 1)
 
     def on_progress(done: int, total: int) -> None:
         progress.total = total
@@ -73,13 +83,18 @@ def command(paths_in: tuple[str, ...], outdir: str, paths: int, seed: int, alpha
             products, paths=paths, seed=seed, alpha=alpha, points=points,
             regression_paths=regression_paths or DEFAULT_REGRESSION_PATHS, selects=selects,
             sources=list(paths_in), audits=not no_audits, audit_paths=audit_paths, method=method,
-            workers=workers or default_workers(),
+            workers=workers,
             progress=on_progress,
         )
     finally:
         progress.close()
     dossier.mutations = mutations
-    written = write_dossier(dossier, outdir)
+    drawing = Progress("report: pages and pictures", len(dossier.pages))
+    try:
+        written = write_dossier(dossier, outdir, progress=drawing,
+                                mapper=lambda fn, items: parallel_map(fn, items, workers))
+    finally:
+        drawing.close()
     s = dossier.result.summary
     click.echo(f"{len(dossier.pages)} products, {s['total']} cases: {s['pass']} pass, {s['fail']} fail, "
                f"{s['error']} error (paths {paths}, seed {seed}, alpha {alpha:g}, Holm) "
@@ -94,9 +109,15 @@ def command(paths_in: tuple[str, ...], outdir: str, paths: int, seed: int, alpha
     for page in dossier.pages:
         for err in page.errors:
             click.echo(f"ERROR {page.name}: {err}")
-        if page.formula is not None and page.formula.cross.status != "agree":
-            click.echo(f"{page.formula.cross.status.upper()} {page.name} code against its formula: "
-                       f"{page.formula.cross.message}")
+        if page.formula is not None and page.formula.status != "agree":
+            click.echo(f"{page.formula.status.upper()} {page.name} code against its formula: "
+                       f"{page.formula.message}")
+    if mutations is not None and mutations.threshold is not None:
+        for name in mutations.scores:
+            if mutations.verdict(name) == "fail" and any(p.name == name for p in dossier.pages):
+                sc = mutations.scores[name]
+                click.echo(f"FAIL {name} mutation score {100 * (sc.score or 0.0):.1f}% below the "
+                           f"required {100 * mutations.threshold:.1f}%")
     click.echo(f"wrote {len(written)} files to {outdir}; open {outdir}/index.html")
     reproduce = f"limitcase check {' '.join(paths_in)}".rstrip()
     if method != "auto":

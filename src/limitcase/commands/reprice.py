@@ -24,6 +24,7 @@ from ..calibrate import (
     calibrate,
     reprice,
 )
+from ..settings import REPRICE_LOCALVOL_STEPS_PER_YEAR
 from ..cli_support import EXIT_FAIL, EXIT_OK, Progress, common_run_options, handle_errors, write_outputs
 from ..quotes import check_quote_file, describe, load_quotes, resolve_market
 from ..report.reprice import (
@@ -71,8 +72,9 @@ def _reproduce(ctx: click.Context, quotes_path: str) -> str:
               help="Starting points of the Heston fit (the best is kept).")
 @click.option("--scheme", type=click.Choice(["qe", "euler"]), default="qe", show_default=True,
               help="Heston simulation scheme.")
-@click.option("--steps-per-year", type=click.IntRange(1, 100_000), default=DEFAULT_STEPS_PER_YEAR,
-              show_default=True, help="Heston scheme steps per year.")
+@click.option("--steps-per-year", type=click.IntRange(1, 100_000), default=None,
+              help=f"Simulation steps per year [default: {DEFAULT_STEPS_PER_YEAR} for Heston's scheme, "
+                   f"{REPRICE_LOCALVOL_STEPS_PER_YEAR} for local volatility's log-Euler].")
 @click.option("--tolerance", type=click.FloatRange(0.0, 100.0), default=DEFAULT_TOLERANCE_VOL, show_default=True,
               help="Band, in implied-vol points around the market price, of quotes without bid-ask.")
 @click.option("--select", "selects", multiple=True, metavar="TEXT",
@@ -105,6 +107,8 @@ def command(quotes_path: str, market_path: str | None, spot: str | None, rate: s
     click.echo(render_calibration(cal.summary()))
     progress = Progress("repricing", len(qs.expiries()))
     try:
+        if steps_per_year is None:
+            steps_per_year = REPRICE_LOCALVOL_STEPS_PER_YEAR if model == "local-vol" else DEFAULT_STEPS_PER_YEAR
         rep = reprice(cal, paths=paths, seed=seed, alpha=alpha, scheme=scheme, steps_per_year=steps_per_year,
                       tolerance_vol=tolerance, select=selects, progress=progress)
     finally:
@@ -115,7 +119,7 @@ def command(quotes_path: str, market_path: str | None, spot: str | None, rate: s
     click.echo(render_reprice_table([r.to_dict() for r in rep.rows]))
     click.echo("")
     reproduce = _reproduce(ctx, quotes_path)
-    click.echo(render_reprice_summary(rep.result, heston=cal.model == "heston", scheme=rep.scheme,
+    click.echo(render_reprice_summary(rep.result, model=cal.model, scheme=rep.scheme,
                                       steps_per_year=rep.steps_per_year, tolerance_vol=rep.tolerance_vol,
                                       reproduce=reproduce))
     click.echo(f"calibrated in {t1 - t0:.1f} s, repriced in {t2 - t1:.1f} s")

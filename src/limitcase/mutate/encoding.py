@@ -1,33 +1,11 @@
-"""Mutation reports in JSON: infinities as +-1e308, NaN as ``null``, numpy scalars as Python ones.
+"""Mutation reports in JSON: the project's one number encoding
+(:func:`limitcase.encoding.jsonable`), under the name the mutate package has always used.
 
-Part of :mod:`limitcase.mutate`. (The project-wide JSON number encoding lives apart; this
-one keeps the mutation report's format as it was written.)
+Part of :mod:`limitcase.mutate`.
 """
 
 from __future__ import annotations
 
-import math
-from typing import Any
-
-import numpy as np
+from ..encoding import jsonable as json_safe
 
 __all__ = ["json_safe"]
-
-
-def json_safe(x: Any) -> Any:
-    if isinstance(x, dict):
-        return {k: json_safe(v) for k, v in x.items()}
-    if isinstance(x, (list, tuple)):
-        return [json_safe(v) for v in x]
-    if isinstance(x, (np.floating, float)):
-        v = float(x)
-        if math.isnan(v):
-            return None
-        if math.isinf(v):
-            return 1e308 if v > 0 else -1e308
-        return v
-    if isinstance(x, np.integer):
-        return int(x)
-    if isinstance(x, np.bool_):
-        return bool(x)
-    return x

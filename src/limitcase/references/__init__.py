@@ -30,6 +30,30 @@ from limitcase.references.exotics import (
     simple_chooser,
 )
 
+# numerical references
+from limitcase.references.heston import heston_charfn, heston_price
+from limitcase.references.lattice import lattice_price, lattice_price_payoff
+from limitcase.references.merton import merton_charfn, merton_jump_price
+from limitcase.references.quadrature import european_by_quadrature
+from limitcase.references.fourier import FOURIER_KINDS, FOURIER_METHOD, FOURIER_TOL, fourier_price
+
+# numerical references from the contract terms (the caller builds the dates from them)
+from limitcase.references.discrete_barriers import (
+    DISCRETE_BARRIER_KINDS,
+    DOUBLE_BARRIER_KINDS,
+    discrete_barrier_by_quadrature,
+    discrete_double_barrier_by_quadrature,
+)
+from limitcase.references.arithmetic_asians import arithmetic_asian, arithmetic_asian_continuous
+from limitcase.references.barrier_series import (
+    binary_barrier,
+    double_barrier_option,
+    double_touch,
+    touch_option,
+)
+from limitcase.references.compound import bivariate_normal_cdf, complex_chooser, compound_option
+from limitcase.references.corridor import range_accrual
+
 __all__ = [
     # blackscholes
     "black76",
@@ -59,16 +83,6 @@ __all__ = [
     "margrabe_exchange",
     "power_option",
     "simple_chooser",
-]
-
-# numerical references
-from limitcase.references.heston import heston_charfn, heston_price
-from limitcase.references.lattice import lattice_price, lattice_price_payoff
-from limitcase.references.merton import merton_charfn, merton_jump_price
-from limitcase.references.quadrature import european_by_quadrature
-from limitcase.references.fourier import FOURIER_KINDS, FOURIER_METHOD, FOURIER_TOL, fourier_price
-
-__all__ += [
     # lattice
     "lattice_price",
     "lattice_price_payoff",
@@ -85,4 +99,23 @@ __all__ += [
     "FOURIER_METHOD",
     "FOURIER_TOL",
     "fourier_price",
+    # discrete barriers (recursive quadrature)
+    "DISCRETE_BARRIER_KINDS",
+    "DOUBLE_BARRIER_KINDS",
+    "discrete_barrier_by_quadrature",
+    "discrete_double_barrier_by_quadrature",
+    # arithmetic Asians (Vecer's PDE)
+    "arithmetic_asian",
+    "arithmetic_asian_continuous",
+    # continuous double barriers, touches, binary barriers
+    "binary_barrier",
+    "double_barrier_option",
+    "double_touch",
+    "touch_option",
+    # compound options and the complex chooser
+    "bivariate_normal_cdf",
+    "complex_chooser",
+    "compound_option",
+    # corridors
+    "range_accrual",
 ]

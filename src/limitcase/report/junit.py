@@ -6,15 +6,20 @@ paths included); an error case is written as a JUnit ``<error>``.
 
 from __future__ import annotations
 
+import io
 import xml.etree.ElementTree as ET
 from pathlib import Path
+from typing import TYPE_CHECKING
 
-from ..suite import RunResult
+from .jsonfile import write_text_atomic
+
+if TYPE_CHECKING:  # pragma: no cover
+    from ..verdict import RunResult
 
 __all__ = ["junit_tree", "write_junit"]
 
 
-def junit_tree(result: RunResult, command: str = "check", reproduce: str = "limitcase check") -> ET.ElementTree:
+def junit_tree(result: "RunResult", command: str = "check", reproduce: str = "limitcase check") -> ET.ElementTree:
     """The run as an ElementTree of ``<testsuites><testsuite>...``."""
     s = result.summary
     suites = ET.Element("testsuites")
@@ -47,6 +52,8 @@ def junit_tree(result: RunResult, command: str = "check", reproduce: str = "limi
     return ET.ElementTree(suites)
 
 
-def write_junit(path: str | Path, result: RunResult, command: str = "check", reproduce: str = "limitcase check") -> None:
-    """Write the JUnit XML of a run to ``path``."""
-    junit_tree(result, command, reproduce).write(path, encoding="utf-8", xml_declaration=True)
+def write_junit(path: str | Path, result: "RunResult", command: str = "check", reproduce: str = "limitcase check") -> None:
+    """Write the JUnit XML of a run to ``path`` (atomically)."""
+    buf = io.BytesIO()
+    junit_tree(result, command, reproduce).write(buf, encoding="utf-8", xml_declaration=True)
+    write_text_atomic(path, buf.getvalue())

@@ -21,10 +21,12 @@ from matplotlib.figure import Figure
 from matplotlib.font_manager import FontProperties
 from matplotlib.ticker import FuncFormatter, LogLocator, NullFormatter, NullLocator
 
-if TYPE_CHECKING:  # pragma: no cover
-    from ..sweep import Convergence, StepSweep, Sweep
+from .numbers import count, tick
 
-__all__ = ["sweep_png", "convergence_png", "steps_png", "formula_png", "Z95"]
+if TYPE_CHECKING:  # pragma: no cover
+    from ..document.records import ConvergenceSeries, StepSeries, SweepSeries
+
+__all__ = ["sweep_png", "sweep_style", "convergence_png", "steps_png", "formula_png", "path_labels", "Z95"]
 
 Z95 = 1.959963984540054
 """Two-sided 95% normal quantile: the bands drawn are value +/- Z95 * stderr."""
@@ -50,25 +52,30 @@ def _plain_log_y(ax) -> None:
     ax.yaxis.set_minor_formatter(NullFormatter())
 
 
+def path_labels(n: list[int]) -> list[str]:
+    """Tick labels of path counts: digits grouped by thin spaces (16 384), never by a comma
+    or a point, which read as a decimal sign in half the world."""
+    return [count(k) for k in n]
+
+
 def _path_axis(ax, n: list[int]) -> None:
     ax.set_xscale("log")
     ax.set_xticks(n)
-    ax.set_xticklabels([f"{k:,}" if k < 10**6 else f"{k:.1e}" for k in n], rotation=30, fontsize=8)
+    ax.set_xticklabels(path_labels(n), rotation=30, fontsize=8)
     ax.xaxis.set_minor_locator(NullLocator())
     ax.set_xlabel("paths")
 
 
-def _tick(v: object) -> str:
-    if isinstance(v, float):
-        if math.isinf(v):
-            return "∞" if v > 0 else "-∞"
-        return f"{v:g}"
-    return str(v)
+_tick = tick
 
 
-def sweep_png(sweep: "Sweep", title: str | None = None) -> bytes:
-    """The sweep of one reduction: estimates with 95% bands, the limit point, the base value."""
-    plan = sweep.plan
+def sweep_png(sweep: "SweepSeries", title: str | None = None) -> bytes:
+    """The sweep of one reduction: estimates with 95% bands, the limit point, the base value.
+
+    A parameter that takes whole values only (a count, a 0/1 flag) is drawn as separate
+    points with their error bars, not joined by a line or a band: there is nothing between
+    two of its values."""
+    plan = sweep
     ests = sweep.estimates
     n = len(ests)
     fig = Figure(figsize=(7.6, 3.9))
@@ -78,16 +85,17 @@ def sweep_png(sweep: "Sweep", title: str | None = None) -> bytes:
     ys = [e.value for e in ests]
     half = [Z95 * e.stderr for e in ests]
     if n > 1:
-        ax.fill_between(xs[:-1], [y - h for y, h in zip(ys[:-1], half[:-1])],
-                        [y + h for y, h in zip(ys[:-1], half[:-1])], color=_BLUE, alpha=0.15, lw=0)
-        ax.errorbar(xs[:-1], ys[:-1], yerr=half[:-1], fmt="o-", color=_BLUE, ms=4, lw=1.2, capsize=3,
-                    label="Monte Carlo price, 95% band")
+        if not sweep.discrete:
+            ax.fill_between(xs[:-1], [y - h for y, h in zip(ys[:-1], half[:-1])],
+                            [y + h for y, h in zip(ys[:-1], half[:-1])], color=_BLUE, alpha=0.15, lw=0)
+        ax.errorbar(xs[:-1], ys[:-1], yerr=half[:-1], fmt=sweep_style(sweep), color=_BLUE, ms=4, lw=1.2, capsize=3,
+                    label="Monte Carlo price, 95% " + ("interval" if sweep.discrete else "band"))
         ax.axvline(n - 1.2, color=_GREY, lw=0.8, ls=":")
     ax.errorbar([xs[-1]], [ys[-1]], yerr=[half[-1]], fmt="s", color=_ORANGE, ms=6, capsize=4,
                 label="at the limit")
     if sweep.target is not None:
         ax.axhline(sweep.target, color=_GREEN, lw=1.4, ls="--",
-                   label=f"base case {sweep.target:.6g}")
+                   label=f"base case {tick(sweep.target)}")
     labels = [_tick(v) for v in plan.values]
     ax.set_xticks(xs)
     ax.set_xticklabels(labels, rotation=0 if max(len(s) for s in labels) < 7 else 30)
@@ -115,7 +123,13 @@ def sweep_png(sweep: "Sweep", title: str | None = None) -> bytes:
     return _png(fig)
 
 
-def convergence_png(conv: "Convergence") -> bytes:
+def sweep_style(sweep: "SweepSeries") -> str:
+    """The matplotlib format of a sweep's points: joined for a continuous parameter, apart
+    for one that takes whole values only."""
+    return "o" if sweep.discrete else "o-"
+
+
+def convergence_png(conv: "ConvergenceSeries") -> bytes:
     """Standard error against paths (log-log) beside the estimate against paths."""
     ests = conv.estimates
     n = [e.paths for e in ests]
@@ -140,12 +154,12 @@ def convergence_png(conv: "Convergence") -> bytes:
     _path_axis(ax2, n)
     ax2.set_title("estimate with 95% band", fontsize=10)
     ax2.grid(True, which="both", color="#e4e4e4", lw=0.5)
-    fig.suptitle(conv.product.label(), fontsize=11)
+    fig.suptitle(conv.label, fontsize=11)
     fig.subplots_adjust(left=0.08, right=0.985, bottom=0.24, top=0.82, wspace=0.25)
     return _png(fig)
 
 
-def steps_png(steps: "StepSweep") -> bytes:
+def steps_png(steps: "StepSeries") -> bytes:
     """The estimate with its 95% band against the model's time-step parameter."""
     x = list(steps.values)
     v = [e.value for e in steps.estimates]
@@ -158,7 +172,7 @@ def steps_png(steps: "StepSweep") -> bytes:
     ax.set_xticklabels([str(k) for k in x])
     ax.set_xlabel(steps.param)
     ax.set_ylabel("price")
-    ax.set_title(f"{steps.product.label()}: time step", fontsize=10)
+    ax.set_title(f"{steps.label}: time step", fontsize=10)
     ax.grid(True, color="#e4e4e4", lw=0.5)
     fig.subplots_adjust(left=0.12, right=0.97, bottom=0.17, top=0.88)
     return _png(fig)

@@ -101,20 +101,26 @@ def render_reprice_table(rows: Sequence[Mapping[str, Any]]) -> str:
     return "\n".join(out)
 
 
-def render_reprice_summary(result: Any, *, heston: bool, scheme: str, steps_per_year: int, tolerance_vol: float,
+_FORMULA = {
+    "heston": "the Heston characteristic-function price (Lewis integral)",
+    "local-vol": "the SVI surface's own price (what Dupire's local volatility reprices in the limit of small steps)",
+    "black-scholes": "the Black-Scholes closed form",
+}
+
+
+def render_reprice_summary(result: Any, *, model: str, scheme: str, steps_per_year: int, tolerance_vol: float,
                            reproduce: str) -> str:
     """Counts, how to read the table, and each failure with the command reproducing it.
 
     ``result`` is the run's record (``summary`` counts, ``paths``, ``seed``, ``alpha`` and
     ``outcomes`` with ``verdict``, ``product``, ``case``, ``message``)."""
     s = result.summary
-    sim = f"{scheme.upper()} scheme, {steps_per_year} steps a year" if heston else "exact"
+    sim = f"{scheme.upper()} scheme, {steps_per_year} steps a year" if model in ("heston", "local-vol") else "exact"
     lines = [
         f"{s['total']} quote{'' if s['total'] == 1 else 's'}: {s['pass']} pass, {s['fail']} fail, {s['error']} error "
         f"(paths {result.paths} per expiry, seed {result.seed}, {sim}; family-wise false-alarm rate "
         f"{result.alpha:g}, Holm)",
-        "  formula: " + ("the Heston characteristic-function price (Lewis integral)" if heston
-                         else "the Black-Scholes closed form") + " at the fitted parameters; vol pts: MC minus "
+        "  formula: " + _FORMULA.get(model, _FORMULA["black-scholes"]) + " at the fitted parameters; vol pts: MC minus "
         "market implied vol; spreads: (MC - market) / (ask - bid)",
         "  z band: how far MC lies outside the band (bid-ask, or ~[...] = market price +/- "
         f"{tolerance_vol:g} vol points when no bid-ask), in SE; z formula: (MC - formula)/SE",
