@@ -196,9 +196,9 @@ CASES = [
          says=("run refused before it started", "100,000,000,000,000 paths", "days", "--allow-long-run"),
          others=False),
     Case("unwritable_json", args=("--json", "{folder}/no/such/folder/out.json"), code=2,
-         says=("out.json",), others=False, xfail="pending dossier branch"),
+         says=("out.json",), others=False),
     Case("unwritable_junit", args=("--junit", "{folder}/no/such/folder/out.xml"), code=2,
-         says=("out.xml",), others=False, xfail="pending dossier branch"),
+         says=("out.xml",), others=False),
     # -- quote files
     Case("missing_quotes_file", command="reprice", args=("{folder}/nope.csv",), code=2,
          says=("nope.csv", "does not exist"), good=False, others=False),
