@@ -55,7 +55,10 @@ class Check:
     ``target`` under ``sense`` (``==``, ``>=`` or ``<=``) and a declared allowance.
 
     A check that could not be built carries ``error`` (and no legs): the runner reports it
-    as an error for that check only."""
+    as an error for that check only. A check whose target does not exist under its model (the
+    base product has no reference there: :class:`~limitcase.errors.NoReference`) carries
+    ``skip``, the reason: the runner reports it as a skip, never priced, never a pass, and
+    outside Holm's family (the parts that need no reference are checks of their own)."""
 
     product: str
     case: str
@@ -71,6 +74,7 @@ class Check:
     allowance_reason: str = ""
     note: str = ""
     error: str | None = None
+    skip: str | None = None
 
     @property
     def label(self) -> str:

@@ -5,6 +5,15 @@ Each product may offer its own (:meth:`~limitcase.product.Product.control_variat
 discounted underlying at each leg's last date is always one, worth the model's discounted
 forward ``S0 exp(-q T)``. How they are applied, and why the estimate stays unbiased, is in
 :mod:`limitcase.engine` and :class:`limitcase.estimates.Joint`.
+
+A control never assumes what its check tests. Its exact price is an assumption (the
+discounted underlying's is the model's own forward), so a check whose statistic is an exact
+linear function of some controls on the pilot paths (a prepaid forward, a forward contract,
+a call struck at 0, a user's product with the same property) would only return those
+assumptions. :class:`~limitcase.estimates.Joint` drops such controls for that check
+(pilot R^2 above :data:`~limitcase.estimates.TAUTOLOGY_R2`) and the outcome says so. The
+controls that stay still absorb a wrong forward in part; that is why every check run first
+audits the martingale of each model it uses on plain paths (:mod:`limitcase.modelaudit`).
 """
 
 from __future__ import annotations

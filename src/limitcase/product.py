@@ -166,6 +166,15 @@ class Product(Parametrised):
         x = s / s0
         return x.reshape(x.shape[0], -1)
 
+    def hold_value(self, obs: Observed, j: int) -> np.ndarray | None:
+        """Value at exercise date ``j`` of holding the right to the last exercise date, per
+        path, shape ``(paths,)``, from what is known at that date only (the European
+        option on the remaining life); ``None`` (the default) when the product cannot say.
+
+        The Longstaff-Schwartz policy (:mod:`limitcase.exercise`) puts it in its regression
+        basis and, where the pilot paths do not contradict it, never exercises below it."""
+        return None
+
     def reference(self, model: "Model") -> float:
         """A trusted price of this product under ``model`` (closed form or numerical)."""
         raise NoReference(f"{type(self).__name__} has no reference price")

@@ -255,7 +255,9 @@ class LimitcaseItem(pytest.Item):
         o = run.outcome(self)
         for key in ("verdict", "value", "stderr", "reference", "z", "p_adjusted"):
             self.user_properties.append((f"limitcase_{key}", getattr(o, key)))
-        if o.verdict != "pass":
+        if o.verdict == "skip":  # no reference under the model: reported as a skip, never a pass
+            pytest.skip(f"limitcase {o.product}/{o.case}: {o.message}")
+        if o.verdict != "pass" or o.model_audit in ("fail", "error"):  # a model that fails its audit fails its checks
             raise CheckFailed(o, run.explain(self, o))
 
     def repr_failure(self, excinfo: pytest.ExceptionInfo[BaseException], style: Any = None) -> Any:
@@ -310,6 +312,7 @@ class _Run:
         self.session, self.st = session, st
         self.outcomes: dict[str, Any] | None = None
         self.m = 0
+        self.audits: list[Any] = []
 
     def outcome(self, item: LimitcaseItem) -> Any:
         from .suite import run_checks
@@ -322,6 +325,7 @@ class _Run:
                                 alpha=self.st.alpha, method=self.st.method)
             self.outcomes = {i.nodeid: o for i, o in zip(items, result.outcomes)}
             self.m = len(items)
+            self.audits = result.outcomes[len(items):]  # the run's model audits, listed after the items
         return self.outcomes[item.nodeid]
 
     def explain(self, item: LimitcaseItem, o: Any) -> str:
@@ -339,6 +343,7 @@ class _Run:
         lines.append(
             f"  settings: paths {self.st.paths}, seed {self.st.seed}, alpha {self.st.alpha:g}, "
             f"Holm over the {self.m} limitcase item(s) of this session"
+            + (f" and the {len(self.audits)} martingale audit(s) of their models" if self.audits else "")
         )
         from .settings import reproduce_command
 

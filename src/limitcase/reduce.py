@@ -40,6 +40,8 @@ __all__ = [
     "checks_for",
     "limit_product",
     "reduction_check",
+    "reduction_checks",
+    "LEGS_SUFFIX",
     "PathRule",
 ]
 
@@ -335,10 +337,16 @@ class Bound(Relation):
                 "(product, model) -> bound"
             )
 
+    def _without_reference(self, product: Product, model: Model, exc: NoReference) -> list[Check]:
+        return _bound_without_reference(self, product, model, exc)
+
     def checks(self, product: Product, model: Model) -> list[Check]:
         if self.side not in (">=", "<="):
             raise ParamError(f"Bound {self.name!r}: side={self.side!r} must be '>=' or '<='")
-        target = float(self.value(product, model))
+        try:
+            target = float(self.value(product, model))
+        except NoReference as exc:
+            return self._without_reference(product, model, exc)
         if math.isnan(target):
             raise DeclarationError(
                 f"{type(product).__name__}: {self.describe()} evaluates to NaN at {product.label()} under "
@@ -368,6 +376,22 @@ class Bound(Relation):
         ]
 
 
+def _bound_without_reference(bound: "Bound", product: Product, model: Model, exc: NoReference) -> list[Check]:
+    name = type(product).__name__
+    skip = Check(product=name, case=bound.name, kind="relation", legs=(product,), model=model, sense=bound.side,
+                 note=bound.note, skip=f"no reference for the bound under {type(model).__name__}: {exc}")
+    if bound.pathwise_leg is None:
+        return [skip]
+    leg = bound.pathwise_leg(product)
+    legs = Check(
+        product=name, case=bound.name + LEGS_SUFFIX, kind="relation", legs=(product, leg), model=model,
+        weights=(1.0, -1.0), target=0.0, sense=bound.side,
+        target_source=f"price {bound.side} {leg.label()} on the same paths (the bound's value is missing)",
+        rules=(PathRule((1.0, -1.0), bound.side),), note=bound.note,
+    )
+    return [legs, skip]
+
+
 def limit_product(product: Product, reduction: Reduction) -> Product:
     """The product with the reduction's parameters moved to their limit."""
     changes = {k: _resolve(v, product) for k, v in reduction.changes.items()}
@@ -375,7 +399,24 @@ def limit_product(product: Product, reduction: Reduction) -> Product:
 
 
 def reduction_check(product: Product, model: Model, red: Reduction) -> Check:
-    """The check of one declared reduction (an error record if it cannot be built)."""
+    """The check of one declared reduction against its base product's reference (an error
+    record if it cannot be built; a skip record, with its reason, when the base product has
+    no reference under the model). :func:`reduction_checks` adds, for a skip, the comparison
+    of the legs on common paths that still runs."""
+    return reduction_checks(product, model, red)[-1]
+
+
+def reduction_checks(product: Product, model: Model, red: Reduction) -> list[Check]:
+    """The checks of one declared reduction.
+
+    Normally one: the limit product against the base product's reference (path by path
+    first, when the reduction is exact). When the base product has no reference under the
+    model (:class:`~limitcase.errors.NoReference`), two: ``<name>:legs``, the limit product
+    against the base product priced on the same paths (path by path for an exact reduction,
+    and their prices on common paths, difference 0 within the declared allowance), then
+    ``<name>`` itself as a skip naming the missing reference. A base product that lives under
+    another model (``reference_model``) cannot share paths, and a product's own closed form
+    (the base is the product itself) has nothing to compare: only the skip is left."""
     name = type(product).__name__
     try:
         if red.model_changes:
@@ -388,26 +429,27 @@ def reduction_check(product: Product, model: Model, red: Reduction) -> Check:
                 "not a Product; it must return the base product, whose reference gives the price"
             )
         ref_model = red.reference_model(model, at_limit) if red.reference_model else model
-        target = float(base.reference(ref_model))
+        try:
+            target = float(base.reference(ref_model))
+        except NoReference as exc:
+            return _without_reference(name, red, model, at_limit, base, exc)
         allowance = float(red.allowance(at_limit, model)) if callable(red.allowance) else float(red.allowance)
     except NoReference as exc:
-        return Check(product=name, case=red.name, kind="reduction", error=f"no reference for the base case: {exc}")
+        return [Check(product=name, case=red.name, kind="reduction", error=f"no reference for the base case: {exc}")]
     except DeclarationError as exc:
-        return Check(product=name, case=red.name, kind="reduction", error=str(exc))
+        return [Check(product=name, case=red.name, kind="reduction", error=str(exc))]
     except LimitcaseError as exc:
-        return Check(product=name, case=red.name, kind="reduction", error=f"cannot build the limit case: {exc}")
+        return [Check(product=name, case=red.name, kind="reduction", error=f"cannot build the limit case: {exc}")]
     except Exception as exc:  # declaration code of the product failed
-        return Check(
+        return [Check(
             product=name, case=red.name, kind="reduction",
             error=f"the reduction's declaration raised {type(exc).__name__}: {exc}",
-        )
+        )]
     exact = red.exact and red.reference_model is None
     legs: tuple[Product, ...] = (at_limit, base) if exact else (at_limit,)
     weights = (1.0, 0.0) if exact else (1.0,)
     rules = (PathRule((1.0, -1.0), "=="),) if exact else ()
-    changes = ", ".join(f"{k}={_num(v)}" for k, v in at_limit.params().items() if k in red.changes)
-    note = red.note or f"{changes}: becomes {base.label()}"
-    return Check(
+    return [Check(
         product=name,
         case=red.name,
         kind="reduction",
@@ -420,8 +462,54 @@ def reduction_check(product: Product, model: Model, red: Reduction) -> Check:
         rules=rules,
         allowance=allowance,
         allowance_reason=red.reason,
-        note=note,
+        note=_reduction_note(red, at_limit, base),
+    )]
+
+
+LEGS_SUFFIX = ":legs"
+"""Appended to a case's name for the part that still runs when its reference is missing."""
+
+
+def _reduction_note(red: Reduction, at_limit: Product, base: Product) -> str:
+    changes = ", ".join(f"{k}={_num(v)}" for k, v in at_limit.params().items() if k in red.changes)
+    return red.note or f"{changes}: becomes {base.label()}"
+
+
+def _same_product(a: Product, b: Product) -> bool:
+    try:
+        return type(a) is type(b) and a.params() == b.params()
+    except Exception:  # parameters that cannot be compared: treat as different
+        return False
+
+
+def _without_reference(name: str, red: Reduction, model: Model, at_limit: Product, base: Product,
+                       exc: NoReference) -> list[Check]:
+    reason = f"no reference for the base case {base.label()} under {type(model).__name__}: {exc}"
+    skip = Check(product=name, case=red.name, kind="reduction", legs=(at_limit, base), model=model,
+                 target_source=f"{base.label()} (no reference)", note=_reduction_note(red, at_limit, base),
+                 skip=reason)
+    if red.reference_model is not None or _same_product(at_limit, base):
+        return [skip]  # another model's base cannot share paths; a product against itself proves nothing
+    try:
+        allowance = float(red.allowance(at_limit, model)) if callable(red.allowance) else float(red.allowance)
+    except Exception:  # an allowance computed from the missing reference: the legs cannot be compared
+        return [skip]
+    legs = Check(
+        product=name,
+        case=red.name + LEGS_SUFFIX,
+        kind="reduction",
+        legs=(at_limit, base),
+        model=model,
+        weights=(1.0, -1.0),
+        target=0.0,
+        target_source=f"{base.label()} priced on the same paths (its reference is missing)",
+        sense="==",
+        rules=(PathRule((1.0, -1.0), "=="),) if red.exact else (),
+        allowance=allowance,
+        allowance_reason=red.reason,
+        note=_reduction_note(red, at_limit, base),
     )
+    return [legs, skip]
 
 
 def checks_for(product: Product | type[Product], model: Model | None = None) -> list[Check]:
@@ -433,11 +521,14 @@ def checks_for(product: Product | type[Product], model: Model | None = None) -> 
     if isinstance(product, type):
         product = product()
     model = product.scenario() if model is None else model
-    out = [reduction_check(product, model, red) for red in type(product).reductions]
+    out = [c for red in type(product).reductions for c in reduction_checks(product, model, red)]
     name = type(product).__name__
     for rel in type(product).relations:
         try:
             out.extend(rel.checks(product, model))
+        except NoReference as exc:
+            out.append(Check(product=name, case=_relation_name(rel), kind="relation", model=model,
+                             skip=f"no reference for the relation under {type(model).__name__}: {exc}"))
         except DeclarationError as exc:
             out.append(Check(product=name, case=_relation_name(rel), kind="relation", error=str(exc)))
         except Exception as exc:

@@ -30,6 +30,10 @@ __all__ = [
     "DEFAULT_REGRESSION_PATHS",
     "DEFAULT_BATCH",
     "DEFAULT_WORKERS",
+    "MODEL_AUDIT",
+    "MODEL_AUDIT_DRIFT",
+    "MODEL_AUDIT_MIN_PATHS",
+    "MODEL_AUDIT_MAX_PATHS",
     "MIN_COMMAND_PATHS",
     "MIN_REGRESSION_PATHS",
     "MIN_MAX_PATHS",
@@ -54,6 +58,7 @@ __all__ = [
     "default_workers",
     "validate_run",
     "reproduce_command",
+    "reproduce_check",
 ]
 
 METHODS = ("auto", "plain", "antithetic", "control", "sobol", "control+antithetic", "control+sobol")
@@ -92,6 +97,24 @@ DEFAULT_BATCH = BLOCK
 DEFAULT_WORKERS = None
 """Worker processes of a command-line run: ``None`` means every core this process may use
 (:func:`default_workers`); the library runs in one process unless told otherwise."""
+
+MODEL_AUDIT = True
+"""Whether a run of checks (:func:`limitcase.suite.run_checks`: the library, the command
+line, the plugin, ``limitcase.testing``) first audits the martingale of every model its checks
+use, on plain paths (:mod:`limitcase.modelaudit`)."""
+
+MODEL_AUDIT_DRIFT = 0.005
+"""The drift error, per year, that the run's model audit detects with 90% power at the
+strictest Holm level of the run: a dividend or rate off by half a percent a year. The
+audit's path count is sized for it from a pilot's variance (:mod:`limitcase.modelaudit`)."""
+
+MODEL_AUDIT_MIN_PATHS = 2 * BLOCK
+"""The fewest paths of a run's model audit (the martingale audit's own minimum)."""
+
+MODEL_AUDIT_MAX_PATHS = 256 * BLOCK
+"""The most paths of a run's model audit (about a million): a model so volatile that more
+would be needed is audited at this count, and the audit's message gives the drift it can
+then detect."""
 
 MIN_COMMAND_PATHS = 100
 """The fewest paths the command line and the pytest plugin accept per check."""
@@ -264,3 +287,10 @@ def reproduce_command(
     if select is not None:
         parts += ["--select", "'" + select.replace("'", "'\\''") + "'"]
     return " ".join(parts)
+
+
+def reproduce_check(run_command: str, *, seed: int, paths: int, select: str) -> str:
+    """The run's command (from :func:`reproduce_command` without seed and paths) completed
+    to reproduce one check: ``--seed``, ``--paths`` and the quoted ``--select``. The one
+    place the per-check line of every renderer is written."""
+    return f"{run_command} --seed {seed} --paths {paths} --select '" + select.replace("'", "'\\''") + "'"

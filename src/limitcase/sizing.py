@@ -82,7 +82,8 @@ def estimate_run(checks: Sequence[Any], *, paths: int, workers: int = 1, max_pat
     peak = 0
     sized = 0
     for check in checks:
-        if getattr(check, "error", None) is not None or check.model is None or not check.legs:
+        if (getattr(check, "error", None) is not None or getattr(check, "skip", None) is not None
+                or check.model is None or not check.legs):
             continue
         try:
             dates = len(grid_of(check.legs))

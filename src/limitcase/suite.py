@@ -43,6 +43,7 @@ from .case import BlockResult, Case, Setup
 from .checks import Check
 from .controls import gather_controls
 from .errors import LimitcaseError, ParamError
+from .modelaudit import mark_checks, plan_model_audits, run_model_audits
 from .sampling import parse_method
 from .settings import (
     DEFAULT_ALPHA,
@@ -51,11 +52,12 @@ from .settings import (
     DEFAULT_PATHS,
     DEFAULT_REGRESSION_PATHS,
     DEFAULT_SEED,
+    MODEL_AUDIT,
     default_workers,
     validate_run,
 )
 from .streams import BLOCK, case_key
-from .verdict import Outcome, RunResult, check_scale, decide, detectable_bias, finalise
+from .verdict import Outcome, RunResult, check_scale, decide, detectable_bias, finalise, skip_outcome
 from .workers import ForkedPool, InlinePool, open_pool
 
 __all__ = [
@@ -237,7 +239,7 @@ def _execute(
             progress(finished, total)
 
     for item in run.items:
-        if item.check.error is not None:
+        if item.check.error is not None or item.check.skip is not None:
             item.error = item.check.error
             finish(item)
             continue
@@ -362,6 +364,8 @@ def _outcome(it: _Item, seed: int, precision: Precision | None, alpha: float) ->
     check = it.check
     base = dict(product=check.product, case=check.case, kind=check.kind, paths=it.acc.paths if it.acc else 0,
                 seed=seed, note=check.note)
+    if check.error is None and check.skip is not None:
+        return skip_outcome(check, seed)
     if it.error is not None:
         legs = tuple(p.label() for p in check.legs) if it.case is not None else ()
         method = it.case.method if it.case is not None else "plain"
@@ -411,6 +415,8 @@ def run_check(
     validate_run(paths=paths, seed=seed, alpha=alpha, method=method, max_paths=max_paths, workers=1,
                  regression_paths=regression_paths)
     prec = parse_precision(precision) if precision is not None else None
+    if check.error is None and check.skip is not None:
+        return skip_outcome(check, seed)
     if prec is None and check.error is None:
         base = dict(product=check.product, case=check.case, kind=check.kind, paths=paths, seed=seed,
                     note=check.note)
@@ -449,6 +455,7 @@ def run_checks(
     max_paths: int = DEFAULT_MAX_PATHS,
     workers: int = 1,
     allow_long_run: bool = False,
+    audit_models: bool = MODEL_AUDIT,
 ) -> RunResult:
     """Run every check and apply Holm's correction over the run at level ``alpha``.
 
@@ -479,6 +486,10 @@ def run_checks(
         (:mod:`limitcase.sizing`; the caller has sized the run itself, as the command line
         does); otherwise such a run raises :class:`ParamError` before any work, with the
         estimate, and above the warning limit a :class:`RuntimeWarning` gives the estimate.
+    audit_models
+        First audit the martingale of every distinct model the checks use, on plain paths
+        (:mod:`limitcase.modelaudit`): outcomes of kind ``audit`` listed after the checks, in
+        the same Holm family; a model that fails fails the run and its checks say so.
     """
     validate_run(paths=paths, seed=seed, alpha=alpha, method=method, max_paths=max_paths, workers=workers,
                  regression_paths=regression_paths)
@@ -492,10 +503,18 @@ def run_checks(
         if note:
             warnings.warn(note, RuntimeWarning, stacklevel=2)
     info: dict = {}
+    plans = plan_model_audits(checks) if audit_models else []
+    family = sum(1 for c in checks if c.error is None and c.skip is None) + len(plans)
+    audits = run_model_audits(plans, seed=seed, alpha=alpha, family=family)
     outcomes = _execute(checks, paths=paths, seed=seed, alpha=alpha, regression_paths=regression_paths,
                         method=method, precision=prec, max_paths=max_paths, workers=workers, progress=progress,
-                        info=info)
+                        family=family if plans else None, info=info)
     extra: dict = {"method": method, "processes": info.get("processes", 1)}
     if prec is not None:
         extra.update(precision=str(prec), max_paths=int(max_paths))
-    return RunResult(finalise(outcomes, alpha), paths=paths, seed=seed, alpha=alpha, extra=extra)
+    final = finalise(outcomes + audits, alpha)
+    done, audited = final[: len(outcomes)], final[len(outcomes):]
+    if plans:
+        done = mark_checks(done, plans, audited)
+        extra["model_audits"] = {f"{a.product}/{a.case}": a.note for a in audited}
+    return RunResult(done + audited, paths=paths, seed=seed, alpha=alpha, extra=extra)

@@ -324,7 +324,7 @@ class Sweep:
     @property
     def target(self) -> float | None:
         """The base case's trusted value (the horizontal line), if the check built."""
-        return None if self.check.error is not None else self.check.target
+        return None if self.check.error is not None or self.check.skip is not None else self.check.target
 
 
 def run_sweep(

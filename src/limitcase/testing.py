@@ -20,7 +20,7 @@ from typing import Sequence
 
 from .models.base import Model
 from .product import Product
-from .reduce import checks_for
+from .reduce import LEGS_SUFFIX, checks_for
 from .report.terminal import render_table
 from .settings import DEFAULT_ALPHA, DEFAULT_METHOD, DEFAULT_PATHS, DEFAULT_SEED
 from .suite import RunResult, run_checks
@@ -43,8 +43,9 @@ def run_product(
     that passes here passes there with the same seed."""
     checks = checks_for(product, model)
     if select:
-        checks = [c for c in checks if c.case in select]
-        missing = set(select) - {c.case for c in checks}
+        # a case whose reference is missing keeps its legs' comparison (``case:legs``) with it
+        checks = [c for c in checks if c.case in select or c.case.removesuffix(LEGS_SUFFIX) in select]
+        missing = set(select) - {c.case.removesuffix(LEGS_SUFFIX) for c in checks}
         if missing:
             raise AssertionError(f"no such case(s) {sorted(missing)} on {product!r}")
     return run_checks(checks, paths=paths, seed=seed, alpha=alpha, method=method)

@@ -47,7 +47,7 @@ from scipy.stats import t as student_t
 from .checks import Check
 from .estimates import Joint
 
-__all__ = ["Outcome", "RunResult", "decide", "check_scale", "FLOAT_FLOOR", "p_value", "holm", "detectable_bias", "finalise", "POWER"]
+__all__ = ["Outcome", "RunResult", "decide", "skip_outcome", "check_scale", "FLOAT_FLOOR", "p_value", "holm", "detectable_bias", "finalise", "POWER"]
 
 POWER = 0.9
 
@@ -59,7 +59,7 @@ class Outcome:
     product: str
     case: str
     kind: str
-    verdict: str  # "pass", "fail", "error"
+    verdict: str  # "pass", "fail", "error", "skip" (no reference under the model: not tested)
     value: float | None = None
     stderr: float | None = None
     reference: float | None = None
@@ -85,6 +85,7 @@ class Outcome:
     precision: float | None = None  # the detectable bias asked for by --precision, in price units
     precision_status: str = ""  # "reached", "budget", "allowance", "identity broken" (precision runs)
     controls: tuple[str, ...] = ()  # control variates used
+    model_audit: str | None = None  # verdict of the run's martingale audit of the check's model
 
     def to_dict(self) -> dict:
         d = {k: getattr(self, k) for k in self.__dataclass_fields__}
@@ -108,7 +109,7 @@ class RunResult:
 
     @property
     def summary(self) -> dict:
-        counts = {"pass": 0, "fail": 0, "error": 0}
+        counts = {"pass": 0, "fail": 0, "error": 0, "skip": 0}
         for o in self.outcomes:
             counts[o.verdict] = counts.get(o.verdict, 0) + 1
         counts["total"] = len(self.outcomes)
@@ -116,7 +117,8 @@ class RunResult:
 
     @property
     def ok(self) -> bool:
-        return all(o.verdict == "pass" for o in self.outcomes)
+        """Every outcome passed or was skipped (a skip is reported, never a failure)."""
+        return all(o.verdict in ("pass", "skip") for o in self.outcomes)
 
 
 class _T:
@@ -205,8 +207,9 @@ def detectable_bias(
 
 
 def finalise(outcomes: Sequence[Outcome], alpha: float) -> list[Outcome]:
-    """Apply Holm over every check that produced a p-value; set verdicts and bias bounds."""
-    tested = [i for i, o in enumerate(outcomes) if o.verdict != "error" and o.p_value is not None]
+    """Apply Holm over every check that produced a p-value; set verdicts and bias bounds.
+    Errors and skips are outside the family: neither was tested."""
+    tested = [i for i, o in enumerate(outcomes) if o.verdict not in ("error", "skip") and o.p_value is not None]
     adjusted = holm([outcomes[i].p_value for i in tested])  # type: ignore[misc]
     m = len(tested)
     out = list(outcomes)
@@ -240,10 +243,17 @@ FLOAT_FLOOR = 1e-10
 """Standard errors below ``FLOAT_FLOOR`` times the check's price level are raised to it
 (zero included: a check with no sampling noise, a sure amount or an identity that holds on
 every path, is still compared through the last digits of block sums).
-A control variate equal to the statistic on every path (an arithmetic Asian with one
-fixing against the geometric one) leaves only rounding noise, ~1e-19, and the comparison
-of two closed forms would then fail on their last digits: no estimate is taken to be more
-precise than one part in 1e10 of the prices it compares."""
+(A control equal to the statistic on every path is no longer applied to it, see
+:data:`limitcase.estimates.TAUTOLOGY_R2`; the floor remains for sure amounts and identities.)
+No estimate is taken to be more precise than one part in 1e10 of the prices it compares."""
+
+
+def skip_outcome(check: Check, seed: int | None) -> Outcome:
+    """The outcome of a check whose target does not exist under its model: ``skip``, with
+    the reason. Not priced, not tested, outside Holm's family."""
+    return Outcome(product=check.product, case=check.case, kind=check.kind, verdict="skip",
+                   message=check.skip or "", seed=seed, note=check.note, sense=check.sense,
+                   target_source=check.target_source, legs=tuple(p.label() for p in check.legs))
 
 
 def decide(check: Check, joint: Joint, seed: int) -> Outcome:
@@ -251,6 +261,12 @@ def decide(check: Check, joint: Joint, seed: int) -> Outcome:
     est = joint.estimate(check.weights)
     diff = est.value - check.target
     messages = list(joint.notes)
+    for label, r2 in joint.dropped_controls(check.weights):
+        messages.append(
+            f"control '{label}' not applied: the statistic is an exact linear function of it on the pilot "
+            f"paths (1 - R^2 = {max(1.0 - r2, 0.0):.1g}, below {1.0 - joint.control_max_r2:.0e}), so it would "
+            "return the control's assumed price unchecked"
+        )
     scale = check_scale(check, joint)
     level = _rounding_scale(check, joint)
     if level and est.stderr < FLOAT_FLOOR * level:
@@ -294,7 +310,7 @@ def decide(check: Check, joint: Joint, seed: int) -> Outcome:
         pathwise_ok=pathwise_ok,
         dof=dof,
         scale=scale,
-        controls=joint.controls if joint.uses_controls(check.weights) else (),
+        controls=joint.used_controls(check.weights),
     )
 
 

@@ -53,7 +53,7 @@ def test_reprice_outcomes_have_the_format_of_check(demo_reprice):
     assert res.outcomes[0].case == "T=2026-04-17 K=2500 put"
     assert res.outcomes[0].legs == ("EuropeanPut(strike=2500, maturity=0.126027)",)
     doc = json.loads(json.dumps(outcomes_document(res, "reprice"), allow_nan=False))
-    assert doc["command"] == "reprice" and doc["summary"] == {"pass": 45, "fail": 0, "error": 0, "total": 45}
+    assert doc["command"] == "reprice" and doc["summary"] == {"pass": 45, "fail": 0, "error": 0, "skip": 0, "total": 45}
     cal = doc["settings"]["calibration"]
     assert cal["model"] == "Heston" and set(cal["parameters"]) == {"v0", "kappa", "theta", "vol_of_vol", "rho"}
     assert cal["feller"]["holds"] is False

@@ -18,15 +18,19 @@ from limitcase.testing import assert_every_check_has_a_twin
 from limitcase import BlackScholes, ParamError, checks_for, price
 from limitcase.suite import run_checks
 from limitcase.references import lattice_price
+from limitcase.exercise import fit_policy
+from limitcase.models import DividendBlackScholes
+from limitcase.product import Observed
 from limitcase_payoffs.bermudan import (
-    LS_SHORTFALL_PER_STRIKE,
+    DIVIDEND_SCENARIO,
     AmericanCall,
+    AmericanCallCashDividend,
     AmericanPut,
     BermudanCall,
     BermudanPut,
 )
 
-PRODUCTS = [BermudanPut, BermudanCall, AmericanPut, AmericanCall]
+PRODUCTS = [BermudanPut, BermudanCall, AmericanPut, AmericanCall, AmericanCallCashDividend]
 PILOT = 1 << 15
 
 
@@ -81,10 +85,23 @@ class PolicySeesTheNextDate:
 
 
 class RegressesOnTheDate:
-    """the regression state is the exercise date's time, not the price (the policy is blind)"""
+    """the regression state is the exercise date's time, not the price, and (as in a
+    product that does not state one) no hold value: the policy is blind"""
 
     def regression_state(self, obs, j):
         return np.full((obs.paths, 1), float(self.exercise_dates()[j]))
+
+    def hold_value(self, obs, j):
+        return None
+
+
+class NoEarlyExercise:
+    """exercise pays only at the last date (the early-exercise mask built the wrong way round)"""
+
+    def exercise_value(self, obs):
+        ex = intrinsic(self, obs.s)
+        ex[:, :-1] = 0.0
+        return ex
 
 
 def broken(bug, base):
@@ -99,6 +116,7 @@ TWINS = [
     (broken(RegressesOnTheDate, BermudanPut), "more_dates_never_lower"),
     (broken(IgnoresTheLastDate, BermudanCall), "one_exercise_date"),
     (broken(PaysTheNextDate, BermudanCall), "no_dividend"),
+    (broken(PaysTheNextDate, BermudanCall), "lattice"),
     (broken(PolicySeesTheNextDate, BermudanCall), "at_most_lattice"),
     (broken(FrozenAtTheFirstDate, BermudanCall), "above_european"),
     # the blind policy costs the call less (its early exercise is worth less): more paths
@@ -108,8 +126,15 @@ TWINS = [
     (broken(PolicySeesTheNextDate, AmericanPut), "at_most_lattice"),
     (broken(FrozenAtTheFirstDate, AmericanPut), "above_european"),
     (broken(IgnoresTheLastDate, AmericanCall), "one_exercise_date"),
+    (broken(PaysTheNextDate, AmericanCall), "no_dividend"),
+    (broken(PaysTheNextDate, AmericanCall), "lattice_american"),
     (broken(PolicySeesTheNextDate, AmericanCall), "at_most_lattice"),
     (broken(FrozenAtTheFirstDate, AmericanCall), "above_european"),
+    (broken(PaysTheNextDate, AmericanCallCashDividend), "lattice_american"),
+    (broken(PaysTheNextDate, AmericanCallCashDividend), "no_dividend"),
+    (broken(PolicySeesTheNextDate, AmericanCallCashDividend), "at_most_lattice"),
+    (broken(FrozenAtTheFirstDate, AmericanCallCashDividend), "above_european"),
+    (broken(NoEarlyExercise, AmericanCallCashDividend), "early_exercise_pays"),
 ]
 
 
@@ -140,9 +165,46 @@ def test_american_put_meets_the_published_longstaff_schwartz_case():
     american = lattice_price(36.0, 40.0, 1.0, 0.06, 0.0, 0.2, "put", exercise="american")
     assert american == pytest.approx(4.478, abs=0.01)
     est = price(p, model, paths=40_000, seed=5, regression_paths=PILOT)
-    allowance = LS_SHORTFALL_PER_STRIKE * 40.0
+    allowance = AmericanPut.reductions[0].allowance(p, model)
     assert american - allowance - 4.0 * est.stderr < est.value < american + 4.0 * est.stderr
     assert abs(est.value - 4.472) < allowance + 4.0 * (est.stderr + 0.010)
+
+
+# --- the exercise policy's hold value ----------------------------------------------------
+
+
+def _observed(model, product, paths, seed):
+    t = product.dates()
+    rng = np.random.default_rng(seed)
+    z = rng.standard_normal((paths, len(t), model.normals_per_step()))
+    sim = model.simulate(t, z, rng)
+    step_var = sim.step_var[:, :, 0]
+    return Observed(t, sim.s[:, :, 0], float(model.initial()[0]), model.rate, lambda: step_var,
+                    float(model.dividend_yields()[0]))
+
+
+def test_american_call_without_dividends_never_exercises_early():
+    # Merton (1973): never exercise a call early on a stock without dividends (r > 0). The
+    # hold-value floor makes the fitted policy agree on every pricing path.
+    model = BlackScholes(spot=100.0, rate=0.05, dividend=0.0, vol=0.2)
+    p = AmericanCall()
+    policy = fit_policy(p, _observed(model, p, PILOT, 1), model.rate)
+    cf = policy.cashflows(p, _observed(model, p, 50_000, 2))
+    assert np.all(cf.time == p.maturity)
+    assert sum(policy.floors) == len(p.exercise_dates()) - 1  # every date but the last
+
+
+def test_hold_floor_is_refused_where_a_cash_dividend_makes_it_wrong():
+    # The product's Black-Scholes hold value cannot see the cash dividend at 0.965: before
+    # the ex-date it is too high and the pilot refuses it; after, it is right and is used.
+    p = AmericanCallCashDividend()
+    policy = fit_policy(p, _observed(DIVIDEND_SCENARIO, p, PILOT, 3), DIVIDEND_SCENARIO.rate)
+    dates = p.exercise_dates()
+    before = [f for f, t in zip(policy.floors, dates) if t < 0.965 - 0.1]
+    after = [f for f, t in zip(policy.floors[:-1], dates[:-1]) if t > 0.965]
+    assert not any(before) and all(after)
+    cf = policy.cashflows(p, _observed(DIVIDEND_SCENARIO, p, 50_000, 4))
+    assert np.mean(cf.time < 0.965) > 0.2  # early exercise, just before the ex-date
 
 
 def test_nested_fewer_dates_are_among_the_dates():

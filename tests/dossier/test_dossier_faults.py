@@ -241,7 +241,9 @@ def test_progress_counts_every_stage_up_to_its_total():
 
 # -- the layers --------------------------------------------------------------------------------
 
-ALLOWED = {"limitcase.errors", "limitcase.report"}
+ALLOWED = {"limitcase.errors", "limitcase.report", "limitcase.encoding", "limitcase.settings"}
+"""What report/ may import at run time: errors, itself, the JSON number encoding and the
+settings (defaults and the reproduce lines); none of them prices."""
 
 
 def _runtime_imports(path: Path) -> set[str]:

@@ -114,7 +114,8 @@ def test_holm_against_hand_computation():
 def test_json_record_carries_the_decision(tmp_path):
     r = run_checks([call_check(), call_check(target=CALL_REFERENCE + 1.0, case="off")], paths=BLOCK, seed=1,
                    method="auto")
-    for o in r.outcomes:
+    assert [o.kind for o in r.outcomes][-1] == "audit"  # the run's audit of its model, on plain paths
+    for o in r.outcomes[:-1]:
         d = o.to_dict()
         for key in ("p_value", "p_adjusted", "detectable_bias", "detectable_relative", "method", "dof", "stderr"):
             assert d[key] is not None, key

@@ -101,8 +101,10 @@ def test_precision_run_equals_fixed_run_with_its_final_paths():
     run with the path count the precision run ended on."""
     checks = [call_check(), _merton_check()]
     adaptive = run_checks(checks, paths=BLOCK, seed=3, method="antithetic", precision=0.15, max_paths=100 * BLOCK)
-    assert all(o.precision_status == "reached" for o in adaptive.outcomes)
-    assert all(o.paths > BLOCK for o in adaptive.outcomes)  # it did add paths
+    priced = adaptive.outcomes[: len(checks)]  # then the run's audits of the two models
+    assert [o.kind for o in adaptive.outcomes[len(checks):]] == ["audit", "audit"]
+    assert all(o.precision_status == "reached" for o in priced)
+    assert all(o.paths > BLOCK for o in priced)  # it did add paths
     for check, o in zip(checks, adaptive.outcomes):
         fixed = run_checks([check], paths=o.paths, seed=3, method="antithetic").outcomes[0]
         assert (fixed.value, fixed.stderr, fixed.paths) == (o.value, o.stderr, o.paths)

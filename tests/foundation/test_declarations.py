@@ -119,8 +119,8 @@ def test_valid_declarations_still_define_the_class():
                      Bound("below_spot", "<=", lambda p, m: 100.0),
                      Identity("self", lambda p: [(1.0, p), (-1.0, p)]))
 
-    assert [c.case for c in checks_for(Fine)] == [
-        "no_barrier", "decreasing_in_strike", "convex_in_strike", "below_spot", "self"]
+    assert [c.case for c in checks_for(Fine)] == [  # _Call has no reference: a skip, its legs still compared
+        "no_barrier:legs", "no_barrier", "decreasing_in_strike", "convex_in_strike", "below_spot", "self"]
 
 
 def test_declaration_errors_are_param_errors():

@@ -86,6 +86,22 @@ class ReducesToNothingKnown(EuropeanCall):
     reductions = (Reduction("to_unknown", {"strike": 0.0}, becomes=lambda p: NoRefBase()),)
 
 
+def test_a_base_without_reference_is_a_skip_and_its_legs_still_run():
+    """NoRefBase has no reference (Product.reference raises NoReference): the reduction is
+    a skip naming it, never an error or a pass, and the limit still meets the base product
+    on every path (``to_unknown:legs``). Skips leave the run green and Holm's family alone."""
+    checks = [c for c in checks_for(ReducesToNothingKnown) if c.case.startswith("to_unknown")]
+    assert [c.case for c in checks] == ["to_unknown:legs", "to_unknown"]
+    assert checks[1].skip is not None and checks[1].error is None
+    r = run_product(ReducesToNothingKnown, paths=1000, select=["to_unknown"])
+    by = {o.case: o for o in r.outcomes}
+    assert by["to_unknown"].verdict == "skip" and "no reference for the base case" in by["to_unknown"].message
+    assert by["to_unknown"].p_value is None and by["to_unknown"].p_adjusted is None
+    legs = by["to_unknown:legs"]
+    assert legs.verdict == "pass" and legs.pathwise_ok is True and legs.p_adjusted is not None
+    assert "Holm over 1 checks" not in legs.message and r.ok and r.summary["skip"] == 1
+
+
 class ReducesOutOfRange(EuropeanCall):
     reductions = (Reduction("negative_strike", {"strike": -1.0}, becomes=lambda p: EuropeanCall()),)
 
@@ -97,7 +113,6 @@ class ReductionRaises(EuropeanCall):
 @pytest.mark.parametrize(
     "cls, pattern",
     [
-        (ReducesToNothingKnown, "no reference for the base case"),
         (ReducesOutOfRange, r"cannot build the limit case: strike=-1.0 is outside"),
         (ReductionRaises, "the reduction's declaration raised AttributeError"),
     ],

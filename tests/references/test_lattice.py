@@ -363,3 +363,149 @@ def test_bermudan_call_without_dividends_is_european_and_with_dividends_is_betwe
     berm_q = lattice_price(100.0, 95.0, 1.0, 0.02, 0.08, 0.3, kind="call", exercise=ex)
     amer = lattice_price(100.0, 95.0, 1.0, 0.02, 0.08, 0.3, kind="call")
     assert eur < berm_q < amer
+
+
+# ---------------------------------------------------------------------------------------
+# stated accuracy of the American price on long-dated options
+# ---------------------------------------------------------------------------------------
+def _fine_references(s, k, t, r, q, v, call):
+    """Two independent fine trees: the smoothed CRR tree (12000/24000 steps, extrapolated)
+    and the Leisen-Reimer tree (12001/24003 steps, extrapolated)."""
+    g = (lambda x: np.maximum(x - k, 0.0)) if call else (lambda x: np.maximum(k - x, 0.0))
+    crr = lattice_price_payoff(g, s, t, r, q, v, exercise="american", steps=12000, kinks=(k,))
+    lr = lattice_price(s, k, t, r, q, v, kind="call" if call else "put", steps=12001)
+    return crr, lr
+
+
+# (S, T, r, q, sigma, call); K = 100. Near-boundary cases, where the docstring states a
+# larger error, are listed apart.
+LONG_DATED = (
+    [(sp, t, 0.06, 0.0, 0.25, False) for t in (2.0, 5.0) for sp in (85.0, 100.0, 120.0, 140.0)]
+    + [(sp, t, 0.03, 0.06, 0.35, True) for t in (2.0, 5.0) for sp in (60.0, 80.0, 100.0, 115.0, 130.0)]
+    + [(80.0, 3.0, 0.05, 0.0, 0.2, False), (80.0, 3.0, 0.08, 0.03, 0.4, False),
+       (80.0, 3.0, 0.08, 0.03, 0.2, False), (120.0, 3.0, 0.03, 0.07, 0.4, True)]
+)
+NEAR_BOUNDARY = [(70.0, 5.0, 0.06, 0.0, 0.25, False)]
+
+
+@pytest.mark.slow
+@pytest.mark.parametrize("s,t,r,q,v,call", LONG_DATED)
+def test_american_long_dated_meets_the_stated_accuracy(s, t, r, q, v, call):
+    # The docstring of lattice_price states: at most 4e-4 per 100 of strike at the
+    # default steps, against two independent fine trees that agree to 4e-5.
+    crr, lr = _fine_references(s, 100.0, t, r, q, v, call)
+    assert abs(crr - lr) < 4e-5
+    got = lattice_price(s, 100.0, t, r, q, v, kind="call" if call else "put")
+    assert abs(got - 0.5 * (crr + lr)) <= 4e-4
+
+
+@pytest.mark.slow
+@pytest.mark.parametrize("s,t,r,q,v,call", NEAR_BOUNDARY)
+def test_american_near_the_exercise_boundary_meets_its_stated_accuracy(s, t, r, q, v, call):
+    crr, lr = _fine_references(s, 100.0, t, r, q, v, call)
+    ref = 0.5 * (crr + lr)
+    assert abs(crr - lr) < 4e-5
+    assert ref - max(100.0 - s, 0.0) < 0.1  # worth less than 0.1% of the strike above exercise
+    got = lattice_price(s, 100.0, t, r, q, v, kind="call" if call else "put")
+    assert abs(got - ref) <= 2e-3
+
+
+def test_american_two_year_put_meets_the_stated_accuracy_fast():
+    # One case of the grid at default test speed: a 2-year in-the-money put against the
+    # smoothed CRR tree at 6000/12000 steps (a different tree), stated bound 2e-5 on the
+    # 2-year grid plus that reference's own error (measured 1e-5 against 12000/24000).
+    s, k, t, r, q, v = 85.0, 100.0, 2.0, 0.06, 0.0, 0.25
+    ref = lattice_price_payoff(lambda x: np.maximum(k - x, 0.0), s, t, r, q, v, steps=6000, kinks=(k,))
+    assert abs(lattice_price(s, k, t, r, q, v) - ref) <= 2e-5 + 1e-5
+
+
+# ---------------------------------------------------------------------------------------
+# discrete dividends
+# ---------------------------------------------------------------------------------------
+from limitcase.references.lattice import lattice_price_dividends  # noqa: E402
+
+
+@pytest.mark.published
+@pytest.mark.parametrize("t,value", [(1.0, 10.6606), (2.0, 15.2007), (3.0, 18.6002)])
+def test_dividends_haug_haug_lewis_table_6(t, value):
+    # Source: E. G. Haug, J. Haug and A. Lewis, "Back to basics: a new approach to the
+    # discrete dividend problem", Wilmott Magazine, September 2003, Table 6, column "HHL"
+    # (European call, several dividends), as corrected by the authors' errata
+    # (financepress.com, 2016: T = 2 15.2007, T = 3 18.6002; T = 1 unchanged). Parameters
+    # from memory: S = K = 100, r = 6%, sigma = 25%, a cash dividend of 4 in the middle of
+    # each year. Printed to 4 decimals: tolerance 5e-5 plus the tree's 2e-5.
+    divs = tuple((i + 0.5, 4.0) for i in range(int(t)))
+    got = lattice_price_dividends(100.0, 100.0, t, 0.06, 0.25, "call", "european", cash=divs)
+    assert abs(got - value) <= 5e-5 + 2e-5
+
+
+def _one_cash_dividend_by_quadrature(s, k, t, r, v, tau, d, call):
+    """e^{-r tau} E[BS(max(S_tau- - D, 0), K, T - tau)] over the lognormal S_tau- (scipy quad)."""
+    sd = v * math.sqrt(tau)
+    fwd = s * math.exp(r * tau)
+
+    def integrand(z):
+        after = max(fwd * math.exp(sd * z - 0.5 * sd * sd) - d, 0.0)
+        return _bs(after, k, t - tau, r, 0.0, v, call) * math.exp(-0.5 * z * z) / math.sqrt(2.0 * math.pi)
+
+    val, _ = integrate.quad(integrand, -12.0, 12.0, epsabs=1e-12, epsrel=1e-12, limit=400)
+    return math.exp(-r * tau) * val
+
+
+@pytest.mark.parametrize("tau,d", [(0.5, 4.0), (0.9, 3.0), (0.37, 7.0)])
+@pytest.mark.parametrize("call", [True, False])
+def test_dividends_european_matches_quadrature(tau, d, call):
+    want = _one_cash_dividend_by_quadrature(100.0, 100.0, 1.0, 0.06, 0.25, tau, d, call)
+    got = lattice_price_dividends(100.0, 100.0, 1.0, 0.06, 0.25, "call" if call else "put", "european",
+                                  cash=((tau, d),))
+    assert abs(got - want) < 2e-5
+
+
+def test_dividends_proportional_only_is_black_scholes_from_the_scaled_spot():
+    got = lattice_price_dividends(100.0, 100.0, 1.0, 0.05, 0.25, "call", "european",
+                                  proportional=((0.4, 0.03), (0.8, 0.02)))
+    assert abs(got - _bs(100.0 * 0.97 * 0.98, 100.0, 1.0, 0.05, 0.0, 0.25, True)) < 1e-5
+
+
+@pytest.mark.parametrize("kind", ["call", "put"])
+@pytest.mark.parametrize("exercise", ["european", "american"])
+def test_dividends_none_is_the_tree_without_dividends(kind, exercise):
+    got = lattice_price_dividends(100.0, 95.0, 1.5, 0.05, 0.3, kind, exercise, dividend=0.02)
+    want = lattice_price(100.0, 95.0, 1.5, 0.05, 0.02, 0.3, kind, exercise)
+    assert abs(got - want) < 5e-5
+
+
+def test_dividends_american_call_early_exercise_before_the_ex_date():
+    # Merton (1973): without dividends the American call is the European (Black-Scholes);
+    # a cash dividend just before expiry makes early exercise worth something, and the
+    # American price lies between the European and the spot.
+    none = lattice_price_dividends(100.0, 90.0, 1.0, 0.05, 0.2, "call", "american")
+    assert abs(none - _bs(100.0, 90.0, 1.0, 0.05, 0.0, 0.2, True)) < 2e-5
+    eur = lattice_price_dividends(100.0, 90.0, 1.0, 0.05, 0.2, "call", "european", cash=((0.965, 3.0),))
+    amer = lattice_price_dividends(100.0, 90.0, 1.0, 0.05, 0.2, "call", "american", cash=((0.965, 3.0),))
+    assert eur + 1.0 < amer < none
+    # the premium is at least what exercising just before the ex-date instead of holding
+    # gives on the paths where that is worth it; bounded above by the dividend's value
+    assert amer - eur < 3.0
+
+
+def test_dividends_american_put_is_worth_more_with_a_dividend():
+    base = lattice_price_dividends(100.0, 100.0, 1.0, 0.05, 0.25, "put", "american")
+    div = lattice_price_dividends(100.0, 100.0, 1.0, 0.05, 0.25, "put", "american", cash=((0.5, 3.0),))
+    eur = lattice_price_dividends(100.0, 100.0, 1.0, 0.05, 0.25, "put", "european", cash=((0.5, 3.0),))
+    assert eur < div and base < div
+
+
+@pytest.mark.parametrize(
+    "kwargs, match",
+    [
+        ({"cash": ((-0.5, 2.0),)}, r"cash\[0\] time=-0.5"),
+        ({"cash": ((0.5, -2.0),)}, r"cash\[0\] amount=-2.0"),
+        ({"proportional": ((0.5, 1.5),)}, r"proportional\[0\] amount=1.5"),
+        ({"cash": "abc"}, r"cash='abc' is not a sequence"),
+        ({"cash": ((0.5,),)}, r"cash\[0\]=\(0.5,\) is not a \(time, amount\) pair"),
+    ],
+)
+def test_dividends_bad_schedules_are_refused(kwargs, match):
+    with pytest.raises(ParamError, match=match):
+        lattice_price_dividends(100.0, 100.0, 1.0, 0.05, 0.2, "call", "american", **kwargs)

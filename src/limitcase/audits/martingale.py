@@ -12,8 +12,8 @@ from scipy.stats import chi2, norm
 from ..engine import BLOCK, Joint, case_key, coerce_seed
 from ..errors import ModelError, ParamError
 from ..models.base import Model
-from ..suite import DEFAULT_ALPHA, DEFAULT_PATHS, DEFAULT_SEED
-from ..verdict import Outcome, p_value
+from ..settings import DEFAULT_ALPHA, DEFAULT_PATHS, DEFAULT_SEED
+from ..verdict import FLOAT_FLOOR, Outcome, p_value
 from .constants import MARTINGALE_DATES, PATHS_GROUP_MIN, SEED_PATHS_MIN
 from .probes import AuditOption, _Delivery, _Probe, reference_option
 from .wrappers import DriftCorrected
@@ -79,6 +79,9 @@ def audit_martingale(
     def measure(m: Model, n: int) -> tuple[Joint, np.ndarray, np.ndarray, np.ndarray]:
         joint = _evaluate(legs, m, paths=n, seed=seed, key=key)
         se = np.sqrt(np.clip(np.diag(joint.cov), 0.0, None) / joint.paths)
+        # a date with no randomness (zero volatility) leaves rounding noise only: no mean is
+        # taken to be more precise than FLOAT_FLOOR of its size (as in the checks' decisions)
+        se = np.maximum(se, FLOAT_FLOOR * np.abs(target))
         diff = joint.mean - target
         return joint, diff, se, np.array([p_value(d, s, "==") for d, s in zip(diff, se)])
 

@@ -8,8 +8,8 @@ from typing import Any, Callable, Iterable, Mapping, Sequence
 from ..engine import coerce_seed
 from ..errors import InputError
 from ..models.base import Model
-from ..suite import DEFAULT_ALPHA, DEFAULT_PATHS, DEFAULT_SEED, RunResult
-from ..verdict import Outcome, finalise
+from ..settings import DEFAULT_ALPHA, DEFAULT_PATHS, DEFAULT_SEED
+from ..verdict import Outcome, RunResult, finalise
 from .constants import AUDITS, default_models
 from .common import _error, _name, _seed_int
 from .martingale import audit_martingale, audit_paths, audit_seeds

@@ -10,7 +10,7 @@ from scipy.stats import chi2
 from ..engine import BLOCK, Joint, case_key
 from ..errors import ModelError, ParamError
 from ..models.base import Model
-from ..suite import DEFAULT_ALPHA, DEFAULT_PATHS, DEFAULT_SEED
+from ..settings import DEFAULT_ALPHA, DEFAULT_PATHS, DEFAULT_SEED
 from ..verdict import Outcome, p_value
 from .constants import OPTION_MATURITY
 from .probes import AuditOption, reference_option

@@ -13,6 +13,7 @@ import sys
 import click
 
 from ..cli_support import EXIT_FAIL, EXIT_OK, InputFailure, Progress, common_run_options, handle_errors, write_outputs
+from ..settings import reproduce_command
 
 
 def _audit_names() -> tuple[str, ...]:
@@ -81,7 +82,7 @@ def command(model_names: tuple[str, ...], paths: int, seed: int, alpha: float, j
     if legend:
         click.echo(legend)
     click.echo("")
-    reproduce = f"limitcase audit {' '.join(model_names)}".rstrip()
+    reproduce = reproduce_command("audit", model_names, seed=None, paths=None, alpha=alpha)
     click.echo(render_summary(result, reproduce=reproduce))
     times = result.extra.get("timings", {})
     if times:

@@ -10,7 +10,7 @@ import click
 from ..cli_support import (
     EXIT_FAIL, EXIT_OK, InputFailure, Progress, handle_errors, output_dir, output_file, write_outputs,
 )
-from ..settings import DEFAULT_ALPHA, DEFAULT_SEED, METHODS, REPORT_OUTPUT, REPORT_PATHS, REPORT_POINTS
+from ..settings import DEFAULT_ALPHA, DEFAULT_SEED, METHODS, REPORT_OUTPUT, REPORT_PATHS, REPORT_POINTS, reproduce_command
 
 
 @click.command("report")
@@ -119,8 +119,6 @@ def command(paths_in: tuple[str, ...], outdir: str, paths: int, seed: int, alpha
                 click.echo(f"FAIL {name} mutation score {100 * (sc.score or 0.0):.1f}% below the "
                            f"required {100 * mutations.threshold:.1f}%")
     click.echo(f"wrote {len(written)} files to {outdir}; open {outdir}/index.html")
-    reproduce = f"limitcase check {' '.join(paths_in)}".rstrip()
-    if method != "auto":
-        reproduce += f" --method {method}"
+    reproduce = reproduce_command("check", paths_in, seed=None, paths=None, method=method, alpha=alpha)
     write_outputs(dossier.result, "report", json_path, junit_path, reproduce)
     sys.exit(EXIT_OK if dossier.ok else EXIT_FAIL)

@@ -24,7 +24,7 @@ from ..calibrate import (
     calibrate,
     reprice,
 )
-from ..settings import REPRICE_LOCALVOL_STEPS_PER_YEAR
+from ..settings import REPRICE_LOCALVOL_STEPS_PER_YEAR, reproduce_command
 from ..cli_support import EXIT_FAIL, EXIT_OK, Progress, common_run_options, handle_errors, write_outputs
 from ..quotes import check_quote_file, describe, load_quotes, resolve_market
 from ..report.reprice import (
@@ -41,7 +41,7 @@ _OMIT_FROM_REPRODUCE = {"quotes_path", "paths", "seed", "json_path", "junit_path
 
 
 def _reproduce(ctx: click.Context, quotes_path: str) -> str:
-    parts = ["limitcase reprice", quotes_path]
+    parts = [reproduce_command("reprice", [quotes_path], seed=None, paths=None)]
     for p in ctx.command.params:
         if p.name in _OMIT_FROM_REPRODUCE or not isinstance(p, click.Option):
             continue

@@ -290,7 +290,8 @@ def build_dossier(
             progress(min(n, total), total)
 
     result = run_checks(all_checks, paths=paths, seed=seed, alpha=alpha, regression_paths=regression_paths,
-                        progress=lambda i, n: report(i), method=method, workers=workers)
+                        progress=lambda i, n: report(i), method=method, workers=workers,
+                        audit_models=False)  # the dossier audits its models itself, a family of their own
     report(len(all_checks))
 
     jobs = [(p, paths, seed, points, regression_paths) for p in built]

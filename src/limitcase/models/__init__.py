@@ -1,6 +1,7 @@
 """Models of the underlying(s): each declares bounded parameters and simulates on any grid."""
 
 from .base import Degeneration, Model, Simulated
+from .dividends import DividendBlackScholes
 from .gbm import BlackScholes, MultiBlackScholes
 from .heston import HESTON_SCHEMES, Heston
 from .merton import Merton
@@ -16,4 +17,5 @@ __all__ = [
     "HESTON_SCHEMES",
     "Merton",
     "LocalVol",
+    "DividendBlackScholes",
 ]

@@ -32,7 +32,7 @@ from limitcase.references.exotics import (
 
 # numerical references
 from limitcase.references.heston import heston_charfn, heston_price
-from limitcase.references.lattice import lattice_price, lattice_price_payoff
+from limitcase.references.lattice import lattice_price, lattice_price_dividends, lattice_price_payoff
 from limitcase.references.merton import merton_charfn, merton_jump_price
 from limitcase.references.quadrature import european_by_quadrature
 from limitcase.references.fourier import FOURIER_KINDS, FOURIER_METHOD, FOURIER_TOL, fourier_price
@@ -86,6 +86,7 @@ __all__ = [
     # lattice
     "lattice_price",
     "lattice_price_payoff",
+    "lattice_price_dividends",
     # quadrature
     "european_by_quadrature",
     # heston

@@ -28,7 +28,7 @@ import numpy as np
 from limitcase.errors import ParamError
 from limitcase.references.quadrature import _call_payoff, _check_kind, _check_range, _market, _out
 
-__all__ = ["lattice_price", "lattice_price_payoff"]
+__all__ = ["lattice_price", "lattice_price_payoff", "lattice_price_dividends"]
 
 #: Default step counts: the coarse tree of the Richardson pair (the fine one has about twice
 #: as many). Chosen for 4-5 correct digits on the Longstaff-Schwartz (2001) put cases in
@@ -308,12 +308,29 @@ def lattice_price(
     :math:`d = (e^{(r-q)\Delta t} - p u)/(1-p)`, which centres the strike between two
     terminal nodes. Values roll back as :math:`V = e^{-r\Delta t}(p V_u + (1-p) V_d)`,
     and for American exercise :math:`V \leftarrow \max(V, g(S))` at every node. The
-    European error is O(1/n^2); the American error is smooth and O(1/n) [2]_, so the
-    price returned is the Richardson value
-    :math:`(n_2 V_{n_2} - n_1 V_{n_1})/(n_2 - n_1)` with :math:`n_1` = ``steps`` and
-    :math:`n_2 = 2 n_1 + 1`. Measured (tests): on the ten Longstaff-Schwartz (2001) put
-    cases the default (1601/3203 steps) differs from a 12801/25603-step extrapolation by
-    at most 2e-5, in at most 0.04 s per case.
+    European error is O(1/n^2). The American error is O(1/n) [2]_ but its coefficient is
+    not constant: it drifts and oscillates with n (where the exercise boundary falls
+    between nodes), so the error is not monotone in the step count. The price returned is
+    the Richardson value :math:`(n_2 V_{n_2} - n_1 V_{n_1})/(n_2 - n_1)` with
+    :math:`n_1` = ``steps`` and :math:`n_2 = 2 n_1 + 1`, which removes the drift but not
+    the oscillation.
+
+    **Stated accuracy of the American price at the default steps** (1601/3203), measured
+    (tests, ``-m slow`` for the full grid) against references from two independent fine
+    trees (the smoothed Cox-Ross-Rubinstein tree of :func:`lattice_price_payoff` at
+    12000/24000 steps, extrapolated, and this tree at 12001/24003 steps, which agree to
+    2e-5 per 100 of strike), on 2-, 3- and 5-year puts and calls, strike 100, spots 60
+    to 140, volatility 0.2 to 0.4, with and without dividends:
+
+    * at most 4e-4 per 100 of strike (largest measured 3.5e-4: a 3-year call, S = 120,
+      r = 0.03, q = 0.07, sigma = 0.4), and at most 2e-5 on the 2-year grid and on the ten
+      Longstaff-Schwartz (2001) put cases;
+    * except where the spot lies just outside the exercise region (the option worth less
+      than 0.1% of the strike above its exercise value): there the boundary sits within
+      a node or two of the spot and the error reached 1.6e-3 (a 5-year put, S = 70,
+      K = 100, r = 0.06, sigma = 0.25, worth 30.0155). Pass a larger ``steps`` there.
+
+    A run takes about 0.1 s at the defaults.
 
     **Bermudan.** Exercise times are put exactly on steps of a Cox-Ross-Rubinstein
     tree: the step count is raised to a multiple of the least M with every
@@ -499,3 +516,228 @@ def lattice_price_payoff(
         res[idx] = _crr_price(payoff, kink_list, float(si), float(ti), float(ri), float(qi),
                               float(vi), ex, n, extrapolate, func)
     return _out(res)
+
+
+# ---------------------------------------------------------------------------------------
+# discrete dividends
+# ---------------------------------------------------------------------------------------
+def _dividend_schedule(name: str, raw: Any, func: str, high: float) -> list[tuple[float, float]]:
+    try:
+        rows = [tuple(float(x) for x in row) for row in (raw or ())]
+    except (TypeError, ValueError) as exc:
+        raise ParamError(
+            f"{name}={raw!r} is not a sequence of (time, amount) pairs in {func}; pass e.g. ((0.5, 2.0),)"
+        ) from exc
+    out = []
+    for i, row in enumerate(rows):
+        if len(row) != 2:
+            raise ParamError(f"{name}[{i}]={row!r} is not a (time, amount) pair in {func}")
+        t, a = row
+        if not (math.isfinite(t) and t > 0.0):
+            raise ParamError(f"{name}[{i}] time={t!r} is outside (0, inf) in {func}; ex-dates are after today")
+        if not (math.isfinite(a) and 0.0 <= a <= high):
+            raise ParamError(f"{name}[{i}] amount={a!r} is outside [0, {high:g}] in {func}")
+        out.append((t, a))
+    return out
+
+
+def _interp_cubic(values: np.ndarray, x_low: float, step: float, y: np.ndarray) -> np.ndarray:
+    """Values on the uniform grid ``x_low + step * j`` read at points ``y`` (inside the grid)
+    by 4-point Lagrange interpolation (cubic), linear in the outer cells."""
+    m = values.size
+    u = (y - x_low) / step
+    if m < 4:
+        j = np.clip(np.floor(u).astype(np.int64), 0, max(m - 2, 0))
+        if m == 1:
+            return np.full_like(y, values[0])
+        w = u - j
+        return (1.0 - w) * values[j] + w * values[j + 1]
+    j = np.clip(np.floor(u).astype(np.int64), 1, m - 3)
+    w = u - j  # in [0, 1] inside, nodes j-1, j, j+1, j+2 at -1, 0, 1, 2
+    l0 = -w * (w - 1.0) * (w - 2.0) / 6.0
+    l1 = (w + 1.0) * (w - 1.0) * (w - 2.0) / 2.0
+    l2 = -(w + 1.0) * w * (w - 2.0) / 2.0
+    l3 = (w + 1.0) * w * (w - 1.0) / 6.0
+    return l0 * values[j - 1] + l1 * values[j] + l2 * values[j + 1] + l3 * values[j + 2]
+
+
+def _dividend_tree(s: float, k: float, t: float, r: float, q: float, v: float, n: int, call: bool,
+                   american: bool, events: dict[int, list[tuple[str, float]]]) -> float:
+    """One smoothed CRR tree with n steps and discrete dividends at the given steps."""
+    func = "lattice_price_dividends"
+    dt = t / n
+    h = v * math.sqrt(dt)
+    growth = math.exp((r - q) * dt)
+    p = (growth - math.exp(-h)) / (math.exp(h) - math.exp(-h))
+    if not 0.0 < p < 1.0:
+        raise ParamError(
+            f"steps={n!r} gives a Cox-Ross-Rubinstein up-probability {p!r} outside (0, 1) in "
+            f"{func}; use more steps"
+        )
+    disc = math.exp(-r * dt)
+    pu, pd = disc * p, disc * (1.0 - p)
+    x0 = math.log(s)
+
+    def g(x: np.ndarray) -> np.ndarray:
+        return np.maximum(x - k, 0.0) if call else np.maximum(k - x, 0.0)
+
+    grid = x0 + h * np.arange(-n, n + 1)
+    values = _cell_average(g, grid[::2], h, [k], func)
+    if n in events:  # dividends at expiry: the payoff reads the ex-dividend price
+        values = _apply_dividends(values, grid[::2], h, events[n], call, american, k, 0.0, r)
+    for i in range(n - 1, -1, -1):
+        values = pu * values[1:] + pd * values[:-1]
+        xs = grid[n - i: n + i + 1: 2]
+        if american:
+            np.maximum(values, g(np.exp(xs)), out=values)
+        if i in events:
+            values = _apply_dividends(values, xs, h, events[i], call, american, k, (n - i) * dt, r)
+            if american:  # exercise just before the ex-date (cum dividend)
+                np.maximum(values, g(np.exp(xs)), out=values)
+    return float(values[0])
+
+
+def _apply_dividends(values: np.ndarray, xs: np.ndarray, h: float, divs: list[tuple[str, float]],
+                     call: bool, american: bool, k: float, tau: float, r: float) -> np.ndarray:
+    """Cum-dividend values at the level's nodes from the ex-dividend ones: V(S) = V_ex(S - D)
+    (floored at 0) or V_ex((1 - delta) S), read by interpolation in log-spot; below the
+    lowest node, linear in the spot towards the value at spot 0 (a call 0; a put K if
+    American, K exp(-r tau) if European, tau the time left)."""
+    at_zero = 0.0 if call else (k if american else k * math.exp(-r * tau))
+    spot = np.exp(xs)
+    target = spot.copy()
+    for kind, a in divs:  # several dividends on one step: in the order given
+        target = np.maximum(target - a, 0.0) if kind == "cash" else target * (1.0 - a)
+    out = np.empty_like(values)
+    low = spot[0]
+    inside = target >= low
+    if np.any(inside):
+        out[inside] = _interp_cubic(values, xs[0], 2.0 * h, np.log(target[inside]))
+    below = ~inside
+    if np.any(below):
+        w = target[below] / low
+        out[below] = at_zero + w * (values[0] - at_zero)
+    return out
+
+
+def lattice_price_dividends(
+    spot: float,
+    strike: float,
+    maturity: float,
+    rate: float,
+    vol: float,
+    kind: str = "call",
+    exercise: str = "american",
+    *,
+    cash: Iterable[tuple[float, float]] = (),
+    proportional: Iterable[tuple[float, float]] = (),
+    dividend: float = 0.0,
+    steps: int | None = None,
+    extrapolate: bool = True,
+) -> float:
+    r"""Binomial-tree price of a European or American call or put on a stock paying
+    discrete dividends: cash amounts and proportions at given ex-dates.
+
+    Parameters
+    ----------
+    spot, strike : float
+        Spot S_0 > 0 (cum all future dividends) and strike K > 0.
+    maturity : float
+        Time to expiry T >= 0 in years.
+    rate, vol : float
+        Continuously compounded rate r; volatility sigma > 0 of the price between ex-dates.
+    kind : {"call", "put"}
+    exercise : {"american", "european"}
+    cash : iterable of (time, amount), keyword-only
+        Cash dividends: at ex-date t the price drops from S to max(S - D, 0).
+    proportional : iterable of (time, fraction), keyword-only
+        Proportional dividends: the price drops from S to (1 - delta) S.
+    dividend : float, keyword-only
+        A continuous yield q besides them (default 0).
+    steps : int, optional
+        Steps n of the coarse tree (default 2000; the fine tree has 2n), raised to a
+        multiple of the schedule's M so that every ex-date falls on a step.
+    extrapolate : bool, keyword-only
+        Return the Richardson value :math:`2V_{2n} - V_n` (default) instead of :math:`V_n`.
+
+    Returns
+    -------
+    float
+
+    Raises
+    ------
+    ParamError
+        Bad market input, schedule, ``kind``, ``exercise`` or ``steps``.
+
+    Notes
+    -----
+    The model is the piecewise-lognormal one of Haug, Haug and Lewis [1]_ (the price is
+    geometric Brownian motion between ex-dates and drops by the dividend at each; the
+    model :class:`limitcase.models.DividendBlackScholes` simulates). The treatment is the
+    interpolation approach of Vellekoop and Nieuwenhuis [2]_: one recombining
+    Cox-Ross-Rubinstein tree for the diffusion (the smoothed tree of
+    :func:`lattice_price_payoff`, terminal cell averages and Richardson extrapolation),
+    and at an ex-date step the cum-dividend value at each node S is the ex-dividend value
+    at S - D (or (1 - delta) S) read off the same level's nodes by interpolation. We
+    interpolate with 4-point Lagrange polynomials in log-spot (error O(h^4) where the
+    value is smooth, so that the interpolation does not spoil the extrapolation); Vellekoop
+    and Nieuwenhuis analyse the linear case. American exercise is allowed at every step,
+    and at an ex-date step both after (ex) and just before (cum) the dividend, which is
+    when a call is exercised early. An ex-date after expiry is ignored; one at expiry is
+    paid before the payoff. An ex-date that no step count up to 2 * steps places on a step
+    is moved to the nearest step, with a warning (an error of order T/steps).
+
+    Measured (tests): European prices against scipy quadrature over the lognormal price at
+    the ex-date (one cash dividend) agree to 2e-5; with proportional dividends only, the
+    European price equals Black-Scholes from S_0 prod(1 - delta) to 1e-5; American put and
+    call without dividends agree with :func:`lattice_price`.
+
+    References
+    ----------
+    .. [1] E. G. Haug, J. Haug and A. Lewis, "Back to basics: a new approach to the discrete
+       dividend problem", Wilmott Magazine, September 2003, 37-47.
+    .. [2] M. H. Vellekoop and J. W. Nieuwenhuis, "Efficient pricing of derivatives on
+       assets with discrete dividends", Applied Mathematical Finance 13(3), 2006, 265-284.
+    """
+    func = "lattice_price_dividends"
+    call = _check_kind(kind, func) == "call"
+    if exercise not in ("american", "european"):
+        raise ParamError(f"exercise={exercise!r} is not 'american' or 'european' in {func}")
+    s, t, r, q, v = (float(x) for x in _market(func, spot, maturity, rate, dividend, vol))
+    k = float(_check_range("strike", strike, func, low=0.0, low_open=True, fix="a strike is a positive price level"))
+    _check_range("vol", v, func, low=0.0, low_open=True, fix="a tree needs vol > 0")
+    c = _dividend_schedule("cash", cash, func, math.inf)
+    pr = _dividend_schedule("proportional", proportional, func, 1.0 - 1e-12)
+    if not isinstance(extrapolate, bool):
+        raise ParamError(f"extrapolate={extrapolate!r} is not a bool in {func}; pass True or False")
+    n = DEFAULT_STEPS_CRR if steps is None else _check_steps(steps, func, 2)
+    american = exercise == "american"
+    if t == 0.0:
+        return max(s - k, 0.0) if call else max(k - s, 0.0)
+    rows = sorted([(tt, "cash", a) for tt, a in c if tt <= t] + [(tt, "proportional", a) for tt, a in pr if tt <= t])
+    times = np.array([row[0] for row in rows])
+    if times.size:
+        m = _schedule_multiple(times, t, 2 * n)
+        if m is not None:
+            n = m * max(1, math.ceil(n / m))
+
+    def events_for(nn: int) -> dict[int, list[tuple[str, float]]]:
+        ev: dict[int, list[tuple[str, float]]] = {}
+        worst = 0.0
+        for tt, kd, a in rows:
+            i = max(1, int(round(tt / t * nn)))
+            worst = max(worst, abs(i * t / nn - tt))
+            ev.setdefault(i, []).append((kd, a))
+        if worst > 1e-9 * t:
+            warnings.warn(
+                f"an ex-date does not fall on a step of the {nn}-step tree of {func}; it was moved "
+                f"to the nearest step (largest shift {worst!r} years)",
+                stacklevel=3,
+            )
+        return ev
+
+    coarse = _dividend_tree(s, k, t, r, q, v, n, call, american, events_for(n))
+    if not extrapolate:
+        return coarse
+    fine = _dividend_tree(s, k, t, r, q, v, 2 * n, call, american, events_for(2 * n))
+    return 2.0 * fine - coarse

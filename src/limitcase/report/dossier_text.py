@@ -3,6 +3,7 @@ reproducing command, a mutation score in words."""
 
 from __future__ import annotations
 
+from ..settings import reproduce_command
 from typing import TYPE_CHECKING, Sequence
 
 from .numbers import count
@@ -17,14 +18,9 @@ __all__ = ["counts", "reproduce", "score_text", "settings_line"]
 def reproduce(d: "Dossier", select: str = "") -> str:
     """The ``limitcase check`` command that reruns the dossier's cases (one product's with
     ``select``)."""
-    srcs = " ".join(d.settings.get("sources") or [])
-    cmd = f"limitcase check {srcs}".rstrip()
-    cmd += f" --seed {d.settings['seed']} --paths {d.settings['paths']} --alpha {d.settings['alpha']:g}"
-    if d.settings.get("method", "auto") != "auto":
-        cmd += f" --method {d.settings['method']}"
-    if select:
-        cmd += f" --select '{select}'"
-    return cmd
+    return reproduce_command("check", d.settings.get("sources") or [], seed=d.settings["seed"],
+                             paths=d.settings["paths"], alpha=d.settings["alpha"],
+                             method=d.settings.get("method"), select=select or None)
 
 
 def settings_line(d: "Dossier") -> str:

@@ -2,7 +2,7 @@
 and the one JSON number encoding every limitcase file uses.
 
 Each entry of ``cases`` holds at least ``product``, ``case``, ``kind`` ("reduction",
-"relation", "audit", "reprice"), ``verdict`` ("pass", "fail", "error"), ``value``,
+"relation", "audit", "reprice"), ``verdict`` ("pass", "fail", "error", "skip"), ``value``,
 ``stderr``, ``reference``, ``z`` and ``message``; see docs/json-format.md for the rest.
 
 Numbers (docs/json-format.md, "One rule for numbers"): an infinity is written ``1e308`` or

@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import io
 import xml.etree.ElementTree as ET
+from ..settings import reproduce_check
 from pathlib import Path
 from typing import TYPE_CHECKING
 
@@ -25,7 +26,7 @@ def junit_tree(result: "RunResult", command: str = "check", reproduce: str = "li
     suites = ET.Element("testsuites")
     suite = ET.SubElement(
         suites, "testsuite", name=f"limitcase {command}", tests=str(s["total"]),
-        failures=str(s["fail"]), errors=str(s["error"]), skipped="0",
+        failures=str(s["fail"]), errors=str(s["error"]), skipped=str(s.get("skip", 0)),
     )
     props = ET.SubElement(suite, "properties")
     for k, v in (("paths", result.paths), ("seed", result.seed), ("alpha", result.alpha)):
@@ -38,13 +39,13 @@ def junit_tree(result: "RunResult", command: str = "check", reproduce: str = "li
         )
         if o.verdict == "fail":
             el = ET.SubElement(case, "failure", message=o.message or "check failed")
-            el.text = (
-                f"{detail}\nreproduce: {reproduce} --seed {result.seed} --paths {result.paths} "
-                f"--select '{o.product}/{o.case}'"
-            )
+            el.text = f"{detail}\nreproduce: " + reproduce_check(reproduce, seed=result.seed, paths=result.paths,
+                                                                 select=f"{o.product}/{o.case}")
         elif o.verdict == "error":
             el = ET.SubElement(case, "error", message=o.message or "error")
             el.text = o.message
+        elif o.verdict == "skip":  # no reference under the model: reported, not tested
+            ET.SubElement(case, "skipped", message=o.message or "skipped")
         else:
             out = ET.SubElement(case, "system-out")
             out.text = detail

@@ -9,6 +9,7 @@ Everything here formats plain records that the library built (dicts of numbers a
 from __future__ import annotations
 
 import math
+from ..settings import reproduce_check
 from pathlib import Path
 from typing import Any, Mapping, Sequence
 
@@ -130,8 +131,8 @@ def render_reprice_summary(result: Any, *, model: str, scheme: str, steps_per_ye
             continue
         lines.append(f"{o.verdict.upper()} {o.product}/{o.case}: {o.message}")
         if o.verdict == "fail":
-            lines.append(f"  reproduce: {reproduce} --seed {result.seed} --paths {result.paths} "
-                         f"--select '{o.product}/{o.case}'")
+            lines.append("  reproduce: " + reproduce_check(reproduce, seed=result.seed, paths=result.paths,
+                                                           select=f"{o.product}/{o.case}"))
     return "\n".join(lines)
 
 

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 from typing import TYPE_CHECKING, Any, Sequence
 
+from ..settings import reproduce_check
 from .numbers import num
 
 if TYPE_CHECKING:  # pragma: no cover
@@ -32,8 +33,8 @@ def columns(rows: Sequence[Sequence[str]], left: int = 3) -> list[str]:
 
 
 def _row(o: "Outcome") -> tuple[str, ...]:
-    if o.verdict == "error" and o.value is None:
-        return (o.product, o.case, o.kind, "-", "-", "-", "-", "ERROR")
+    if o.verdict in ("error", "skip") and o.value is None:
+        return (o.product, o.case, o.kind, "-", "-", "-", "-", o.verdict.upper())
     value = f"{_num(o.value, 6)} +/- {_num(o.stderr, 2)}"
     sense = "" if o.sense == "==" else f"{o.sense} "
     return (
@@ -86,8 +87,8 @@ def render_summary(result: "RunResult", reproduce: str = "limitcase check") -> s
     """Counts, then what went wrong and how to reproduce it."""
     s = result.summary
     lines = [
-        f"{s['total']} check{'' if s['total'] == 1 else 's'}: {s['pass']} pass, {s['fail']} fail, {s['error']} error "
-        f"(paths {result.paths}, seed {result.seed}, family-wise false-alarm rate {result.alpha:g}, Holm)"
+        f"{s['total']} check{'' if s['total'] == 1 else 's'}: {s['pass']} pass, {s['fail']} fail, {s['error']} error, "
+        f"{s.get('skip', 0)} skip (paths {result.paths}, seed {result.seed}, family-wise false-alarm rate {result.alpha:g}, Holm)"
     ]
     allowances = [o for o in result.outcomes if o.allowance]
     for o in allowances:
@@ -97,6 +98,7 @@ def render_summary(result: "RunResult", reproduce: str = "limitcase check") -> s
         lines.append(f"{o.verdict.upper()} {o.product}/{o.case}: {o.message}")
         if o.verdict == "fail":
             lines.append(
-                f"  reproduce: {reproduce} --seed {result.seed} --paths {result.paths} --select '{o.product}/{o.case}'"
+                "  reproduce: " + reproduce_check(reproduce, seed=result.seed, paths=result.paths,
+                                                  select=f"{o.product}/{o.case}")
             )
     return "\n".join(lines)
