@@ -25,7 +25,7 @@ from .models.base import Model, Simulated
 from .moments import MomentAccumulator, Moments, moment_summary
 from .product import Product
 from .sampling import MethodSpec, Sampler, make_sampler, parse_method, resolve_method
-from .settings import DEFAULT_REGRESSION_PATHS, ENGINE_METHOD
+from .settings import CASE_WORDS_PER_DATE, DEFAULT_REGRESSION_PATHS, ENGINE_METHOD, MAX_CASE_BYTES
 from .streams import (
     BLOCK,
     ROLE_CONTROL_PILOT,
@@ -37,7 +37,7 @@ from .streams import (
     coerce_seed,
 )
 
-__all__ = ["Case", "Setup", "BlockResult", "Accumulator", "parse_control"]
+__all__ = ["Case", "Setup", "BlockResult", "Accumulator", "parse_control", "case_bytes"]
 
 
 def _check_rules(results: list[PathRuleResult], x: np.ndarray, offset: int) -> None:
@@ -130,6 +130,7 @@ class Case:
             spec2, more3 = resolve_method(spec, k, len(self.grid), warn=warn)
             spec = spec2
             notes.extend(more3)
+        _check_memory(self.products, self.grid, k, model.n_assets, self.regression_paths)
         self.legs = [Leg(p, self.grid, model) for p in everything]
         self.k = k
         self.sampler: Sampler = make_sampler(spec, self.grid, k, self.seed, sampler)
@@ -272,6 +273,31 @@ class Accumulator:
             )
         return Joint(paths=m.paths, mean=m.mean, cov=full, rules=rules, method=self.case.method,
                      dof=m.dof, notes=self.case.notes)
+
+
+def case_bytes(dates: int, k: int, assets: int, paths: int) -> int:
+    """Estimated bytes of simulating ``paths`` paths on ``dates`` dates at once (the rule of
+    :data:`~limitcase.settings.CASE_WORDS_PER_DATE`)."""
+    return 8 * int(paths) * int(dates) * (int(k) + CASE_WORDS_PER_DATE * int(assets))
+
+
+def _check_memory(products: Sequence[Product], grid: np.ndarray, k: int, assets: int, regression_paths: int) -> None:
+    """Refuse, before any allocation, a case whose block (or Longstaff-Schwartz pilot) would
+    need more than :data:`~limitcase.settings.MAX_CASE_BYTES`, naming the product with the
+    most dates and the estimate."""
+    early = any(len(p.exercise_dates()) for p in products)
+    paths = max(BLOCK, regression_paths) if early else BLOCK
+    need = case_bytes(len(grid), k, assets, paths)
+    if need <= MAX_CASE_BYTES:
+        return
+    worst = max(products, key=lambda p: len(p.validated_dates()))
+    n = len(worst.validated_dates())
+    what = "the Longstaff-Schwartz pilot" if paths > BLOCK else "one block"
+    raise ParamError(
+        f"{worst.label()} has {n:,} observation dates ({len(grid):,} on the case's grid): {what} of {paths:,} "
+        f"paths would need about {need / 2**30:.3g} GiB, above the limit of {MAX_CASE_BYTES / 2**30:g} GiB "
+        "(limitcase.settings.MAX_CASE_BYTES); give the product fewer dates"
+    )
 
 
 def parse_control(method: str | MethodSpec) -> MethodSpec:

@@ -67,12 +67,15 @@ def main() -> None:
               help="Run every product under this model instead of its scenario: a shipped name with "
                    "overrides (heston:kappa=2,theta=0.04) or a file (my_model.py, my_model.py:Class:vol=0.3). "
                    "Products with another asset count are skipped.")
+@click.option("--allow-long-run", is_flag=True,
+              help="Run even when the estimated time is above the refusal limit (a week; see "
+                   "limitcase.settings.RUN_REFUSE_SECONDS). Above an hour a warning gives the estimate.")
 @handle_errors
 @scheduler_option
 def check(paths_in: tuple[str, ...], paths: int, seed: int, alpha: float, json_path: str | None,
           junit_path: str | None, debug: bool, selects: tuple[str, ...], regression_paths: int | None,
           method: str, precision: str | None, max_paths: int, workers: int | None,
-          model_spec: str | None = None) -> None:
+          model_spec: str | None = None, allow_long_run: bool = False) -> None:
     """Run every declared reduction and relation of the products in PATH (files or
     folders of .py files; default: the shipped catalogue)."""
     import time
@@ -102,13 +105,20 @@ def check(paths_in: tuple[str, ...], paths: int, seed: int, alpha: float, json_p
                            + (" matching --select" if selects else "")
                            + (f"; {len(skipped)} product(s) skipped under the model" if skipped else ""))
     workers = workers or default_workers()
+    from .sizing import enforce, estimate_run
+
+    size = estimate_run(checks, paths=paths, workers=workers, max_paths=max_paths if target is not None else None,
+                        regression_paths=regression_paths or DEFAULT_REGRESSION_PATHS)
+    warning = enforce(size, allow_long_run=allow_long_run)  # refused above the limit: exit 2, before any work
+    if warning:
+        click.echo(warning, err=True)
     progress = Progress("checking", len(checks))
     start = time.monotonic()
     try:
         result = run_checks(checks, paths=paths, seed=seed, alpha=alpha,
                             regression_paths=regression_paths or DEFAULT_REGRESSION_PATHS,
                             progress=progress, method=method, precision=target, max_paths=max_paths,
-                            workers=workers)
+                            workers=workers, allow_long_run=True)  # sized above
     finally:
         progress.close()
     result.extra["workers"] = workers

@@ -147,13 +147,21 @@ class Policy:
 
 
 def _exercise_values(product: Product, obs: Observed) -> np.ndarray:
-    ex = np.asarray(product.exercise_value(obs), dtype=float)
+    from .errors import LimitcaseError, PayoffError
+    from .legs import as_amounts
+
+    name = type(product).__name__
+    try:
+        raw = product.exercise_value(obs)
+    except LimitcaseError:
+        raise
+    except Exception as exc:  # the product's own code failed: an error for its checks only
+        raise PayoffError(f"{name}.exercise_value raised {type(exc).__name__}: {exc}") from exc
+    ex = as_amounts(raw, f"{name}.exercise_value", obs.paths)
     n_ex = len(product.exercise_dates())
     if ex.ndim == 1 and n_ex == 1:
         ex = ex[:, None]
     if ex.shape != (obs.paths, n_ex):
-        from .errors import PayoffError
-
         raise PayoffError(
             f"{type(product).__name__}.exercise_value returned shape {ex.shape}; "
             f"expected ({obs.paths}, {n_ex})"

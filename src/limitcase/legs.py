@@ -19,12 +19,74 @@ from .errors import ParamError, PayoffError
 from .models.base import Model, Simulated
 from .product import Cashflows, Observed, Product
 
-__all__ = ["Leg", "present_values", "grid_of"]
+__all__ = ["Leg", "present_values", "grid_of", "as_amounts"]
 
 
 def grid_of(products: Sequence[Product]) -> np.ndarray:
     """The union of the products' observation dates."""
     return np.unique(np.concatenate([p.validated_dates() for p in products]))
+
+
+def as_amounts(value: Any, what: str, n: int, *, integers: bool = False) -> np.ndarray:
+    """``value`` (what a product's code returned) as an array of floats, or a
+    :class:`PayoffError` naming ``what``, what it returned and what was expected.
+
+    Numbers only: strings, ``None`` entries and other objects are refused (not cast); complex
+    values are refused when any imaginary part is non-zero (a cast would drop it with only a
+    warning); integer arrays are refused unless ``integers`` (payment times may be whole
+    years), because money amounts come out of a payoff as floats and integer ones are almost
+    always truncated (``astype(int)``, ``//``): compared with an untruncated reference they
+    would read as a broken identity instead of the typing slip they are. Booleans (a digital
+    paying 1) are exact and accepted.
+    """
+    expected = f"floats, shape ({n},) or ({n}, k)"
+    if value is None:
+        raise PayoffError(f"{what} returned None; expected {expected}")
+    try:
+        arr = np.asarray(value)
+    except Exception as exc:  # ragged lists and the like
+        raise PayoffError(f"{what} returned {type(value).__name__} that is not an array of numbers "
+                          f"({type(exc).__name__}: {exc}); expected {expected}") from exc
+    kind = arr.dtype.kind
+    if kind == "f":
+        return arr.astype(float, copy=False)
+    if kind == "b":
+        return arr.astype(float)
+    if kind in "iu":
+        if integers:
+            return arr.astype(float)
+        raise PayoffError(
+            f"{what} returned integers (dtype {arr.dtype}, shape {arr.shape}); expected {expected}: "
+            "amounts of money are floats, and whole numbers usually mean a truncation (astype(int), //); "
+            "return floats (astype(float)) if the amounts are meant to be whole"
+        )
+    if kind == "c":
+        imag = np.abs(arr.imag)
+        if np.any(imag != 0):
+            bad = int(np.count_nonzero(imag.reshape(arr.shape[0], -1).any(axis=1))) if arr.ndim else 1
+            raise PayoffError(
+                f"{what} returned complex numbers with a non-zero imaginary part (largest {float(imag.max()):.6g}, "
+                f"on {bad} path{'s' if bad != 1 else ''}); expected {expected}"
+            )
+        return arr.real.astype(float)
+    if kind == "O":
+        flat = arr.reshape(-1)
+        odd = [v for v in flat[:1000] if v is None or isinstance(v, (str, bytes))]
+        if not odd:
+            try:
+                return arr.astype(float)
+            except (TypeError, ValueError):
+                odd = [v for v in flat if not isinstance(v, (int, float, np.number))][:1]
+        sample = odd[0] if odd else None  # a cast would read None as NaN and "1.5" as a number
+        raise PayoffError(
+            f"{what} returned objects that are not numbers (e.g. {sample!r} of type {type(sample).__name__}, "
+            f"shape {arr.shape}); expected {expected}"
+        )
+    sample = arr.reshape(-1)[0] if arr.size else ""
+    raise PayoffError(
+        f"{what} returned {('strings' if kind in 'US' else f'values of dtype {arr.dtype}')} "
+        f"(e.g. {str(sample)!r}, shape {arr.shape}); expected {expected}"
+    )
 
 
 class Leg:
@@ -88,21 +150,27 @@ def present_values(leg: Leg, obs: Observed, rate: float, policy: Any) -> np.ndar
         raise
     except Exception as exc:  # the product's own code failed: report it, keep the run going
         raise PayoffError(f"{name}.payoff raised {type(exc).__name__}: {exc}") from exc
+    if out is None:
+        raise PayoffError(
+            f"{name}.payoff returned None; expected an array of floats of shape ({n},) paid at the last date, "
+            f"({n}, {len(obs.t)}) paid at each date, or Cashflows (a missing 'return'?)"
+        )
     if isinstance(out, Cashflows):
-        amount = np.asarray(out.amount, dtype=float)
+        amount = as_amounts(out.amount, f"{name}.payoff (Cashflows.amount)", n)
         if amount.ndim not in (1, 2) or amount.shape[0] != n:
             raise PayoffError(
                 f"{name}.payoff returned Cashflows.amount of shape {amount.shape}; expected ({n},) or ({n}, k)"
             )
         try:
-            time = np.broadcast_to(np.asarray(out.time, dtype=float), amount.shape)
+            time = np.broadcast_to(as_amounts(out.time, f"{name}.payoff (Cashflows.time)", n, integers=True),
+                                   amount.shape)
         except ValueError as exc:
             raise PayoffError(f"{name}.payoff: Cashflows.time does not broadcast to amount {amount.shape}") from exc
         if not np.all(np.isfinite(time)) or np.any(time < 0):
             raise PayoffError(f"{name}.payoff: payment times must be finite and >= 0")
         disc = np.exp(-rate * time)
     else:
-        amount = np.asarray(out, dtype=float)
+        amount = as_amounts(out, f"{name}.payoff", n)
         if amount.shape == (n,):
             disc = math.exp(-rate * obs.t[-1])
         elif amount.shape == (n, len(obs.t)):

@@ -215,6 +215,8 @@ class Product(Parametrised):
             raise
         except Exception as exc:  # the product's own code failed: an error for its checks only
             raise PayoffError(f"{name}.dates() raised {type(exc).__name__}: {exc}{_where(exc)}") from exc
+        if raw is None:
+            raise ParamError(f"{name}.dates() returned None; expected increasing times in years, > 0 (a missing 'return'?)")
         try:
             d = np.asarray(raw, dtype=float).reshape(-1)
         except (TypeError, ValueError) as exc:

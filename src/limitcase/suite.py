@@ -173,8 +173,8 @@ def _task_setup(args: tuple[int, int]) -> tuple[int, Setup | None, str | None]:
     assert item.case is not None
     try:
         return i, item.case.setup(), None
-    except LimitcaseError as exc:
-        return i, None, str(exc)
+    except Exception as exc:  # the product's own code too: an error for this check only
+        return i, None, _error_text(exc)
 
 
 def _task_blocks(args: tuple[int, int, Setup, int, int, int]) -> tuple[int, list[BlockResult] | None, str | None]:
@@ -183,8 +183,20 @@ def _task_blocks(args: tuple[int, int, Setup, int, int, int]) -> tuple[int, list
     assert item.case is not None
     try:
         return i, item.case.blocks(setup, first, last, paths), None
-    except LimitcaseError as exc:
-        return i, None, str(exc)
+    except Exception as exc:  # the product's own code too: an error for this check only
+        return i, None, _error_text(exc)
+
+
+def _error_text(exc: BaseException) -> str:
+    """The message of a check's error: ours as they are; anything else (raised by the product's
+    own code where no boundary wrapped it) with its type and the line it came from."""
+    if isinstance(exc, LimitcaseError):
+        return str(exc)
+    import traceback
+
+    frames = traceback.extract_tb(exc.__traceback__)
+    where = f" ({frames[-1].filename}:{frames[-1].lineno})" if frames else ""
+    return f"{type(exc).__name__}: {exc}{where}"
 
 
 def _executor(workers: int, tasks_hint: int) -> InlinePool | ForkedPool:
@@ -234,8 +246,8 @@ def _execute(
             continue
         try:
             item.case = _case_for(item.check, seed, method, regression_paths)
-        except LimitcaseError as exc:
-            item.error = str(exc)
+        except Exception as exc:  # the product's own code too: an error for this check only
+            item.error = _error_text(exc)
             finish(item)
             continue
         first = int(paths)
@@ -421,8 +433,9 @@ def run_check(
                 if on_batch is not None:
                     on_batch(acc.paths)
             joint = acc.joint(setup)
-        except LimitcaseError as exc:
-            return Outcome(verdict="error", message=str(exc), legs=tuple(p.label() for p in check.legs), **base)
+        except Exception as exc:  # the product's own code too: an error for this check only
+            return Outcome(verdict="error", message=_error_text(exc), legs=tuple(p.label() for p in check.legs),
+                           **base)
         return decide(check, joint, seed)
     out = _execute([check], paths=paths, seed=seed, alpha=alpha, regression_paths=regression_paths,
                    method=method, precision=prec, max_paths=max_paths, workers=1, progress=None,
@@ -442,6 +455,7 @@ def run_checks(
     precision: "str | float | Precision | None" = None,
     max_paths: int = DEFAULT_MAX_PATHS,
     workers: int = 1,
+    allow_long_run: bool = False,
     audit_models: bool = MODEL_AUDIT,
 ) -> RunResult:
     """Run every check and apply Holm's correction over the run at level ``alpha``.
@@ -468,6 +482,11 @@ def run_checks(
         The path budget of each check in a precision run.
     workers
         Processes sharing the work (1: this one). The numbers do not depend on it.
+    allow_long_run
+        Run even when the run's estimated time is above the refusal limit
+        (:mod:`limitcase.sizing`; the caller has sized the run itself, as the command line
+        does); otherwise such a run raises :class:`ParamError` before any work, with the
+        estimate, and above the warning limit a :class:`RuntimeWarning` gives the estimate.
     audit_models
         First audit the martingale of every distinct model the checks use, on plain paths
         (:mod:`limitcase.modelaudit`): outcomes of kind ``audit`` listed after the checks, in
@@ -476,6 +495,14 @@ def run_checks(
     validate_run(paths=paths, seed=seed, alpha=alpha, method=method, max_paths=max_paths, workers=workers,
                  regression_paths=regression_paths)
     prec = parse_precision(precision) if precision is not None else None
+    if not allow_long_run:
+        from .sizing import enforce, estimate_run
+
+        note = enforce(estimate_run(checks, paths=paths, workers=workers,
+                                    max_paths=max_paths if prec is not None else None,
+                                    regression_paths=regression_paths), option="allow_long_run=True")
+        if note:
+            warnings.warn(note, RuntimeWarning, stacklevel=2)
     info: dict = {}
     plans = plan_model_audits(checks) if audit_models else []
     family = sum(1 for c in checks if c.error is None and c.skip is None) + len(plans)

@@ -84,13 +84,17 @@ class _Ticker:
 @click.option("--time-limit", type=click.FloatRange(min=0.0, min_open=True), default=None,
               help="Seconds one mutant may take per pass before it is stopped and reported as a timeout "
                    "(default: 20 times the unmutated product's own checks, at least 60 s).")
+@click.option("--model", "model_spec", metavar="SPEC", default=None,
+              help="Run every product and every mutant under this model instead of its scenario: a shipped "
+                   "name with overrides (heston:kappa=2) or a file (my_model.py, my_model.py:Class:vol=0.3). "
+                   "Products with another asset count are skipped.")
 @click.option("--debug", is_flag=True, help="Show tracebacks for bad input.")
 @handle_errors
 @scheduler_option
 def command(paths_in: tuple[str, ...], paths: int, quick_paths: int | None, equivalence_paths: int | None,
             seed: int, alpha: float, workers: int | None, method: str, operators: tuple[str, ...],
             selects: tuple[str, ...], min_score: float | None, show_caught: bool, json_path: str | None,
-            time_limit: float | None, debug: bool) -> None:
+            time_limit: float | None, debug: bool, model_spec: str | None = None) -> None:
     """Mutate the payoff code of the products in PATH (files or folders of .py files;
     default: the shipped catalogue), run each product's own checks on every mutant and
     report which bugs are caught, which survive (with the check that would catch them)
@@ -107,18 +111,40 @@ def command(paths_in: tuple[str, ...], paths: int, quick_paths: int | None, equi
     quick = min(QUICK_PATHS, paths) if quick_paths is None else quick_paths
     if quick > paths:
         raise InputFailure(f"--quick-paths {quick} is above --paths {paths}; the first pass must be the cheaper one")
+    model = None
+    if model_spec is not None:
+        from ..models.spec import resolve_model
+
+        model = resolve_model(model_spec)
     products = load_products(paths_in)
     if selects:
         products = [p for p in products if any(s in p.__name__ for s in selects)]
+    skipped = 0
+    if model is not None:
+        from ..plan import model_fits
+
+        fitting = []
+        for p in products:
+            try:
+                why = model_fits(p(), model)
+            except Exception:  # cannot be made at its defaults: its checks will say so
+                why = None
+            if why is None:
+                fitting.append(p)
+            else:
+                skipped += 1
+                click.echo(f"skipped {p.__name__}: {why}")
+        products = fitting
     if not products:
         raise InputFailure(f"no Product classes found in {', '.join(paths_in) or 'the catalogue'}"
-                           + (" matching --select" if selects else ""))
+                           + (" matching --select" if selects else "")
+                           + (f"; {skipped} product(s) skipped under the model" if skipped else ""))
     progress = _Ticker("mutating")
     try:
         report = run_mutation(products, paths=paths, quick_paths=quick,
                               equivalence_paths=equivalence_paths or EQUIVALENCE_PATHS, seed=seed, alpha=alpha,
                               workers=workers, operators=list(operators) or None, method=method, progress=progress,
-                              time_limit=time_limit)
+                              time_limit=time_limit, model=model)
     finally:
         progress.close()
 

@@ -129,13 +129,15 @@ def _short(v: Any) -> str:
     return repr(v)
 
 
-def check_points(cls: type[Product], checks: Sequence[Check] | None = None) -> list[Point]:
+def check_points(cls: type[Product], checks: Sequence[Check] | None = None, model: Model | None = None
+                 ) -> list[Point]:
     """The parameter points the checks of ``cls`` price the product itself at: the product
-    at its defaults under its scenario, then every leg of every check that is an instance
-    of ``cls`` (reduction limits, relation legs), with that check's model; de-duplicated."""
+    at its defaults under its scenario (or ``model``, the one every check runs under with
+    ``--model``), then every leg of every check that is an instance of ``cls`` (reduction
+    limits, relation legs), with that check's model; de-duplicated."""
     base = cls()
-    scenario = base.scenario()
-    checks = checks_for(cls) if checks is None else checks
+    scenario = base.scenario() if model is None else model
+    checks = checks_for(cls, model) if checks is None else checks
     points: list[Point] = []
     seen: set[str] = set()
 
@@ -157,10 +159,10 @@ def check_points(cls: type[Product], checks: Sequence[Check] | None = None) -> l
     return points
 
 
-def probe_point(cls: type[Product]) -> Point | None:
+def probe_point(cls: type[Product], model: Model | None = None) -> Point | None:
     """A parameter point no check uses: every finite positive real parameter of the
     defaults moved up by 10% and every count up by one (where the range allows), under the
-    scenario. A mutant equivalent at the check points but not here is a bug the checks are
+    scenario (or ``model``). A mutant equivalent at the check points but not here is a bug the checks are
     placed too narrowly to see (e.g. every check has the strike at the spot)."""
     base = cls()
     changes: dict[str, Any] = {}
@@ -178,17 +180,17 @@ def probe_point(cls: type[Product]) -> Point | None:
     for attempt in (changes, {k: v for k, v in changes.items() if not specs[k].integer}):
         try:
             p = base.replace(**attempt)
-            return Point(p, p.scenario(), p.label() + " [off the check points]")
+            return Point(p, p.scenario() if model is None else model, p.label() + " [off the check points]")
         except LimitcaseError:
             continue
     return None
 
 
 def probe_difference(mutant_cls: type[Product], original: type[Product], *, paths: int = EQUIVALENCE_PATHS,
-                     seed: int = DEFAULT_SEED) -> PointDifference | None:
+                     seed: int = DEFAULT_SEED, model: Model | None = None) -> PointDifference | None:
     """How the mutant compares with the original at :func:`probe_point` (``None`` if no
-    such point can be made)."""
-    pt = probe_point(mutant_cls)
+    such point can be made); under ``model`` when given."""
+    pt = probe_point(mutant_cls, model)
     if pt is None:
         return None
     orig = original(**pt.product.params())
@@ -362,8 +364,8 @@ def _random_compare(original: Product, mutant: Product, model: Model, paths: int
 
 
 def equivalence(mutant_cls: type[Product], original: type[Product], *, paths: int = EQUIVALENCE_PATHS,
-                seed: int = DEFAULT_SEED, points: Sequence[Point] | None = None, stop_early: bool = False
-                ) -> Equivalence:
+                seed: int = DEFAULT_SEED, points: Sequence[Point] | None = None, stop_early: bool = False,
+                model: Model | None = None) -> Equivalence:
     """Whether a mutant pays what the original pays at every parameter point of the checks.
 
     Parameters
@@ -378,6 +380,8 @@ def equivalence(mutant_cls: type[Product], original: type[Product], *, paths: in
         Parameter points (default: :func:`check_points` of the mutant class).
     stop_early
         Stop at the first point where the mutant differs (enough to know it is real).
+    model
+        The model every check runs under (``--model``); default: each product's scenario.
 
     Notes
     -----
@@ -387,7 +391,7 @@ def equivalence(mutant_cls: type[Product], original: type[Product], *, paths: in
     engine's tolerance). Edge paths are tried first at every point (they are cheap), then
     simulated paths.
     """
-    pts = check_points(mutant_cls) if points is None else list(points)
+    pts = check_points(mutant_cls, model=model) if points is None else list(points)
     results: list[PointDifference] = []
     name = original.__name__
     edge: list[tuple[Point, Product, int, int, str]] = []

@@ -15,6 +15,7 @@ from typing import Any, Callable, Sequence
 import numpy as np
 
 from ..errors import ParamError
+from ..models.base import Model
 from ..product import Product
 from ..reduce import checks_for
 from ..settings import MUTATE_QUICK_PATHS
@@ -68,7 +69,7 @@ def _run_each(cls: type[Product], paths: int, s: dict, order: Sequence[int] | No
     try:
         with np.errstate(all="ignore"), warnings.catch_warnings():
             warnings.simplefilter("ignore")
-            checks = checks_for(cls)
+            checks = checks_for(cls, _REGISTRY.get("model"))
             raw = [None] * len(checks)
             seconds = [0.0] * len(checks)
             limit = s["alpha"] / max(1, len(checks))
@@ -143,7 +144,8 @@ def _task_original(index: int, paths: int) -> tuple[int, int, list[Outcome], flo
 
 def _safe_equivalence(mutant: Mutant, paths: int, seed: int, stop_early: bool) -> Equivalence:
     try:
-        return equivalence(mutant.cls, mutant.original, paths=paths, seed=seed, stop_early=stop_early)
+        return equivalence(mutant.cls, mutant.original, paths=paths, seed=seed, stop_early=stop_early,
+                           model=_REGISTRY.get("model"))
     except Exception as exc:  # the comparison itself broke on the mutant: it is not equivalent
         return Equivalence(False, (PointDifference("(comparison)", note=f"{type(exc).__name__}: {exc}"),))
 
@@ -164,7 +166,8 @@ def _task_mutant(mid: int, stage: str, baseline: Sequence[str], order: Sequence[
         out["equivalence"] = eq
         if eq.equivalent:
             try:
-                off = probe_difference(mutant.cls, mutant.original, paths=s["equivalence_paths"], seed=s["seed"])
+                off = probe_difference(mutant.cls, mutant.original, paths=s["equivalence_paths"], seed=s["seed"],
+                                       model=_REGISTRY.get("model"))
             except Exception as exc:
                 off = PointDifference("(probe)", note=f"{type(exc).__name__}: {exc}")
             out.update(status="equivalent", paths=0, cases=[], message="", probe=off,
@@ -198,6 +201,7 @@ def run_mutation(
     method: str = "auto",
     progress: Callable[[int, int], None] | None = None,
     time_limit: float | None = None,
+    model: Model | None = None,
 ) -> MutationReport:
     """Mutate each product's payoff code, run its checks on every mutant, and score.
 
@@ -229,6 +233,10 @@ def run_mutation(
         ``"timeout"``. ``None`` (default): :data:`TIME_LIMIT_FACTOR` times the CPU seconds
         of the unmutated product's checks at that budget, at least
         :data:`TIME_LIMIT_FLOOR`; ``math.inf``: no limit.
+    model
+        Run every product's and every mutant's checks, and the equivalence comparison, under
+        this model instead of each product's scenario (``mutate --model``); the caller leaves
+        out products whose asset count differs (:func:`limitcase.plan.model_fits`).
 
     Returns
     -------
@@ -272,9 +280,10 @@ def run_mutation(
         raise ParamError(f"method={method!r} is not a sampling method; choose from {', '.join(METHODS)}")
     settings = dict(paths=int(paths), quick_paths=int(quick_paths), equivalence_paths=int(equivalence_paths),
                     seed=int(seed), alpha=float(alpha), workers=workers, method=method,
-                    operators=list(OPERATORS) if operators is None else list(operators))
+                    operators=list(OPERATORS) if operators is None else list(operators),
+                    model=None if model is None else model.label())
     _REGISTRY.clear()
-    _REGISTRY.update(products=product_list, mutants=mutants, settings=settings)
+    _REGISTRY.update(products=product_list, mutants=mutants, settings=settings, model=model)
     index_of = {cls: i for i, cls in enumerate(product_list)}
     budgets = tuple(dict.fromkeys((quick_paths, paths)))
     by_product: dict[int, list[int]] = collections.defaultdict(list)
@@ -383,7 +392,7 @@ def run_mutation(
         suggestion = ""
         off: PointDifference | None = first[k].get("probe")
         if status == "survived":
-            suggestion = suggest(m, eq, checks_for(m.original))
+            suggestion = suggest(m, eq, checks_for(m.original, model))
         elif status == "equivalent" and off is not None and off.differs:
             suggestion = suggest_hidden(m, off)
         mu = m.mutation
