@@ -10,7 +10,7 @@ from typing import Any, Sequence
 import numpy as np
 
 from ..engine import Joint, evaluate
-from ..errors import LimitcaseError, ParamError
+from ..errors import LimitcaseError, NoReference, ParamError
 from ..models.base import Model
 from ..product import Product
 from ..verdict import Outcome
@@ -40,6 +40,12 @@ def _outcome(model: Model, case: str, **kw: Any) -> Outcome:
 
 
 def _error(model: Model, case: str, exc: BaseException, paths: int, seed: int) -> Outcome:
+    """The outcome of an audit that could not run: ``skip`` when the model has no trusted
+    price to compare with (a missing reference is reported, never an error nor a pass),
+    ``error`` otherwise."""
+    if isinstance(exc, NoReference):
+        return Outcome(product=_name(model), case=case, kind="audit", verdict="skip",
+                       message=f"no reference: {exc}", paths=paths, seed=seed, note=model.label())
     kind = "" if isinstance(exc, LimitcaseError) else f"{type(exc).__name__}: "
     return Outcome(product=_name(model), case=case, kind="audit", verdict="error", message=f"{kind}{exc}",
                    paths=paths, seed=seed, note=model.label())
