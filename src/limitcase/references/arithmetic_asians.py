@@ -20,22 +20,10 @@ import numpy as np
 from scipy.interpolate import CubicSpline
 from scipy.linalg import solve_banded
 
+from limitcase.references._inputs import _num, _loop
 from limitcase.errors import ParamError
 
 __all__ = ["arithmetic_asian", "arithmetic_asian_continuous", "arithmetic_asian_floating"]
-
-
-def _num(name: str, value: Any, func: str, *, low: float = -math.inf, low_open: bool = False,
-         fix: str = "") -> float:
-    """Return ``value`` as a finite float in range, or raise a ParamError naming it."""
-    try:
-        x = float(value)
-    except (TypeError, ValueError) as exc:
-        raise ParamError(f"{name}={value!r} is not a number in {func}; {fix}") from exc
-    if not math.isfinite(x) or not ((x > low) if low_open else (x >= low)):
-        bound = f"> {low}" if low_open else f">= {low}"
-        raise ParamError(f"{name}={x!r} is outside the allowed range ({bound}, finite) in {func}; {fix}")
-    return x
 
 
 def _growth(b: float, tau: float) -> float:
@@ -163,17 +151,6 @@ def _common(func: str, spot: Any, strike: Any, maturity: Any, rate: Any, dividen
         _num("dividend", dividend, func, fix="pass a finite continuous dividend yield"),
         _num("vol", vol, func, low=0.0, fix="a volatility is >= 0"),
     )
-
-
-def _loop(args: tuple[Any, ...], one: Any) -> float | np.ndarray:
-    try:
-        arrs = np.broadcast_arrays(*[np.asarray(a, dtype=float) for a in args])
-    except (TypeError, ValueError) as exc:
-        raise ParamError(f"numeric arguments {args!r} are not numbers or do not broadcast: {exc}") from exc
-    out = np.empty(arrs[0].shape)
-    for idx in np.ndindex(*out.shape):
-        out[idx] = one(*[float(a[idx]) for a in arrs])
-    return float(out) if out.ndim == 0 else out
 
 
 def arithmetic_asian(

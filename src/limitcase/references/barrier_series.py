@@ -15,6 +15,7 @@ from typing import Any
 import numpy as np
 from scipy.special import log_ndtr, ndtr
 
+from limitcase.references._inputs import _num, _loop
 from limitcase.errors import ParamError
 
 __all__ = [
@@ -30,21 +31,6 @@ _DOUBLE_KINDS = ("knock-out-call", "knock-out-put", "knock-in-call", "knock-in-p
 # ---------------------------------------------------------------------------------------
 # inputs
 # ---------------------------------------------------------------------------------------
-def _num(name: str, value: Any, func: str, *, low: float = -math.inf, low_open: bool = False,
-         allow_inf: bool = False, fix: str = "") -> float:
-    try:
-        x = float(value)
-    except (TypeError, ValueError) as exc:
-        raise ParamError(f"{name}={value!r} is not a number in {func}; {fix}") from exc
-    ok = not math.isnan(x) and (allow_inf or math.isfinite(x))
-    ok = ok and ((x > low) if low_open else (x >= low))
-    if not ok:
-        bound = f"> {low}" if low_open else f">= {low}"
-        raise ParamError(f"{name}={x!r} is outside the allowed range ({bound}"
-                         f"{', inf allowed' if allow_inf else ', finite'}) in {func}; {fix}")
-    return x
-
-
 def _market(func: str, s: Any, t: Any, r: Any, q: Any, v: Any) -> tuple[float, ...]:
     return (
         _num("spot", s, func, low=0.0, low_open=True, fix="a spot price is positive"),
@@ -53,17 +39,6 @@ def _market(func: str, s: Any, t: Any, r: Any, q: Any, v: Any) -> tuple[float, .
         _num("dividend", q, func, fix="pass a finite continuous dividend yield"),
         _num("vol", v, func, low=0.0, fix="a volatility is >= 0"),
     )
-
-
-def _loop(args: tuple[Any, ...], one: Any) -> float | np.ndarray:
-    try:
-        arrs = np.broadcast_arrays(*[np.asarray(a, dtype=float) for a in args])
-    except (TypeError, ValueError) as exc:
-        raise ParamError(f"numeric arguments {args!r} are not numbers or do not broadcast: {exc}") from exc
-    out = np.empty(arrs[0].shape)
-    for idx in np.ndindex(*out.shape):
-        out[idx] = one(*[float(a[idx]) for a in arrs])
-    return float(out) if out.ndim == 0 else out
 
 
 # ---------------------------------------------------------------------------------------

@@ -21,7 +21,13 @@ import numpy as np
 from scipy import fft as sfft
 from scipy.special import ndtr
 
+from limitcase.references._inputs import _num
 from limitcase.errors import ParamError
+
+
+def _arg(name: str, value: Any, **checks: Any) -> float:
+    """An argument of :func:`cliquet_by_convolution` checked by the package's one input check."""
+    return _num(name, value, "cliquet_by_convolution", **checks)
 
 __all__ = ["cliquet_by_convolution", "CLIQUET_TAIL_Z"]
 
@@ -32,19 +38,6 @@ at most ``N n`` times ``E|R - clip(R, quantiles)|``, below 1e-20 per unit of not
 
 _BUDGET = 1 << 20
 """Lattice points of the law of the sum at resolution 1."""
-
-
-def _num(name: str, value: Any, *, low: float = -math.inf, low_open: bool = False,
-         allow_inf: bool = False, fix: str = "") -> float:
-    func = "cliquet_by_convolution"
-    try:
-        x = float(value)
-    except (TypeError, ValueError) as exc:
-        raise ParamError(f"{name}={value!r} is not a number in {func}; {fix}") from exc
-    if math.isnan(x) or (not allow_inf and math.isinf(x)) or not ((x > low) if low_open else (x >= low)):
-        bound = f"> {low}" if low_open else f">= {low}"
-        raise ParamError(f"{name}={x!r} is outside the allowed range ({bound}) in {func}; {fix}")
-    return x
 
 
 def _return_law(m: float, s: float, lo: float, hi: float, cells: int) -> np.ndarray:
@@ -128,18 +121,18 @@ def cliquet_by_convolution(
     """
     func = "cliquet_by_convolution"
     n_val = notional
-    notional = _num("notional", n_val, low=0.0, fix="a notional is an amount >= 0")
-    maturity = _num("maturity", maturity, low=0.0, low_open=True, fix="maturity is a time in years > 0")
+    notional = _arg("notional", n_val, low=0.0, fix="a notional is an amount >= 0")
+    maturity = _arg("maturity", maturity, low=0.0, low_open=True, fix="maturity is a time in years > 0")
     if isinstance(periods, bool) or not float(periods).is_integer() or periods < 1:
         raise ParamError(f"periods={periods!r} is not a whole number >= 1 in {func}; pass 1, 2, ...")
     n = int(periods)
-    rate = _num("rate", rate, fix="pass a finite continuously compounded rate")
-    dividend = _num("dividend", dividend, fix="pass a finite continuous dividend yield")
-    vol = _num("vol", vol, low=0.0, fix="a volatility is >= 0")
-    lf = _num("local_floor", local_floor, allow_inf=True, fix="a floor is a number or -inf")
-    lc = _num("local_cap", local_cap, allow_inf=True, fix="a cap is a number or inf")
-    gf = _num("global_floor", global_floor, allow_inf=True, fix="a floor is a number or -inf")
-    gc = _num("global_cap", global_cap, allow_inf=True, fix="a cap is a number or inf")
+    rate = _arg("rate", rate, fix="pass a finite continuously compounded rate")
+    dividend = _arg("dividend", dividend, fix="pass a finite continuous dividend yield")
+    vol = _arg("vol", vol, low=0.0, fix="a volatility is >= 0")
+    lf = _arg("local_floor", local_floor, allow_inf=True, fix="a floor is a number or -inf")
+    lc = _arg("local_cap", local_cap, allow_inf=True, fix="a cap is a number or inf")
+    gf = _arg("global_floor", global_floor, allow_inf=True, fix="a floor is a number or -inf")
+    gc = _arg("global_cap", global_cap, allow_inf=True, fix="a cap is a number or inf")
     for low, high, a, b in (("local_floor", "local_cap", lf, lc), ("global_floor", "global_cap", gf, gc)):
         if a > b or a == math.inf or b == -math.inf:
             raise ParamError(f"{low}={a!r} and {high}={b!r} in {func} do not make a range; pass {low} <= {high}, "

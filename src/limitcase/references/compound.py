@@ -15,34 +15,12 @@ import numpy as np
 from scipy import integrate, optimize
 from scipy.special import ndtr
 
+from limitcase.references._inputs import _num, _loop
 from limitcase.errors import ParamError
 
 __all__ = ["bivariate_normal_cdf", "complex_chooser", "compound_option"]
 
 _COMPOUND_KINDS = ("call-on-call", "put-on-call", "call-on-put", "put-on-put")
-
-
-def _num(name: str, value: Any, func: str, *, low: float = -math.inf, low_open: bool = False,
-         fix: str = "") -> float:
-    try:
-        x = float(value)
-    except (TypeError, ValueError) as exc:
-        raise ParamError(f"{name}={value!r} is not a number in {func}; {fix}") from exc
-    if not math.isfinite(x) or not ((x > low) if low_open else (x >= low)):
-        bound = f"> {low}" if low_open else f">= {low}"
-        raise ParamError(f"{name}={x!r} is outside the allowed range ({bound}, finite) in {func}; {fix}")
-    return x
-
-
-def _loop(args: tuple[Any, ...], one: Any) -> float | np.ndarray:
-    try:
-        arrs = np.broadcast_arrays(*[np.asarray(a, dtype=float) for a in args])
-    except (TypeError, ValueError) as exc:
-        raise ParamError(f"numeric arguments {args!r} are not numbers or do not broadcast: {exc}") from exc
-    out = np.empty(arrs[0].shape)
-    for idx in np.ndindex(*out.shape):
-        out[idx] = one(*[float(a[idx]) for a in arrs])
-    return float(out) if out.ndim == 0 else out
 
 
 def _bvn(a: float, b: float, rho: float) -> float:

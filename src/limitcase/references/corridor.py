@@ -15,23 +15,10 @@ from typing import Any
 import numpy as np
 from scipy.special import ndtr
 
+from limitcase.references._inputs import _num, _loop
 from limitcase.errors import ParamError
 
 __all__ = ["range_accrual"]
-
-
-def _num(name: str, value: Any, func: str, *, low: float = -math.inf, low_open: bool = False,
-         allow_inf: bool = False, fix: str = "") -> float:
-    try:
-        x = float(value)
-    except (TypeError, ValueError) as exc:
-        raise ParamError(f"{name}={value!r} is not a number in {func}; {fix}") from exc
-    ok = not math.isnan(x) and (allow_inf or math.isfinite(x))
-    if not ok or not ((x > low) if low_open else (x >= low)):
-        bound = f"> {low}" if low_open else f">= {low}"
-        raise ParamError(f"{name}={x!r} is outside the allowed range ({bound}"
-                         f"{', inf allowed' if allow_inf else ', finite'}) in {func}; {fix}")
-    return x
 
 
 def range_accrual(
@@ -123,12 +110,3 @@ def range_accrual(
     return _loop((spot, lower, upper, payment_time, rate, dividend, vol, cash), one)
 
 
-def _loop(args: tuple[Any, ...], one: Any) -> float | np.ndarray:
-    try:
-        arrs = np.broadcast_arrays(*[np.asarray(a, dtype=float) for a in args])
-    except (TypeError, ValueError) as exc:
-        raise ParamError(f"numeric arguments {args!r} are not numbers or do not broadcast: {exc}") from exc
-    out = np.empty(arrs[0].shape)
-    for idx in np.ndindex(*out.shape):
-        out[idx] = one(*[float(a[idx]) for a in arrs])
-    return float(out) if out.ndim == 0 else out

@@ -19,6 +19,7 @@ import numpy as np
 from scipy import sparse
 from scipy.special import ndtr
 
+from limitcase.references._inputs import _num, _loop
 from limitcase.errors import ParamError
 
 __all__ = [
@@ -64,22 +65,6 @@ _MAX_ENTRIES = 40_000_000
 # ---------------------------------------------------------------------------------------
 # input checks
 # ---------------------------------------------------------------------------------------
-def _num(name: str, value: Any, func: str, *, low: float = -math.inf, low_open: bool = False,
-         allow_inf: bool = False, fix: str = "") -> float:
-    """Return ``value`` as a float after checking it, or raise a ParamError naming it."""
-    try:
-        x = float(value)
-    except (TypeError, ValueError) as exc:
-        raise ParamError(f"{name}={value!r} is not a number in {func}; {fix}") from exc
-    ok = not math.isnan(x) and (allow_inf or math.isfinite(x))
-    ok = ok and ((x > low) if low_open else (x >= low))
-    if not ok:
-        bound = f"> {low}" if low_open else f">= {low}"
-        inf = " (inf allowed)" if allow_inf else " and finite"
-        raise ParamError(f"{name}={x!r} is outside the allowed range ({bound}{inf}) in {func}; {fix}")
-    return x
-
-
 def _times(monitoring_times: Any, maturity: float, func: str) -> np.ndarray:
     """Validate monitoring dates: a 1-D array, strictly increasing, in (0, maturity]."""
     try:
@@ -257,18 +242,6 @@ def _knock_out(
     return float(value[0])
 
 
-def _loop(func: str, args: tuple[Any, ...], one: Any) -> float | np.ndarray:
-    """Broadcast the numeric arguments and call ``one`` per element."""
-    try:
-        arrs = np.broadcast_arrays(*[np.asarray(a, dtype=float) for a in args])
-    except (TypeError, ValueError) as exc:
-        raise ParamError(f"the numeric arguments of {func} are not numbers or do not broadcast: {exc}") from exc
-    out = np.empty(arrs[0].shape)
-    for idx in np.ndindex(*out.shape):
-        out[idx] = one(*[float(a[idx]) for a in arrs])
-    return float(out) if out.ndim == 0 else out
-
-
 # ---------------------------------------------------------------------------------------
 # public functions
 # ---------------------------------------------------------------------------------------
@@ -379,7 +352,7 @@ def discrete_barrier_by_quadrature(
             return _knock_out(call, s, k, lo, hi, times, t, r, q, v, reb, rebate_at_hit, panels_per_sd)
         return _knock_in(call, s, k, lo, hi, times, t, r, q, v, reb, panels_per_sd)
 
-    return _loop(func, (spot, strike, barrier, maturity, rate, dividend, vol, rebate), one)
+    return _loop((spot, strike, barrier, maturity, rate, dividend, vol, rebate), one, func)
 
 
 def discrete_double_barrier_by_quadrature(
@@ -460,7 +433,7 @@ def discrete_double_barrier_by_quadrature(
             return _knock_out(call, s, k, lo, hi, times, t, r, q, v, reb, rebate_at_hit, panels_per_sd)
         return _knock_in(call, s, k, lo, hi, times, t, r, q, v, reb, panels_per_sd)
 
-    return _loop(func, (spot, strike, lower, upper, maturity, rate, dividend, vol, rebate), one)
+    return _loop((spot, strike, lower, upper, maturity, rate, dividend, vol, rebate), one, func)
 
 
 def _knock_in(call: bool, s: float, k: float, lo: float, hi: float, times: np.ndarray, t: float,

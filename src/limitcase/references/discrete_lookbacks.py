@@ -19,25 +19,19 @@ from typing import Any, Callable
 import numpy as np
 from scipy.special import ndtr
 
+from limitcase.references._inputs import _num
 from limitcase.errors import ParamError
+
+
+def _arg(name: str, value: Any, **checks: Any) -> float:
+    """An argument of :func:`discrete_lookback` checked by the package's one input check."""
+    return _num(name, value, "discrete_lookback", **checks)
 
 __all__ = ["DISCRETE_LOOKBACK_KINDS", "discrete_lookback"]
 
 DISCRETE_LOOKBACK_KINDS = ("floating_call", "floating_put", "fixed_call", "fixed_put")
 _GL_X, _GL_W = np.polynomial.legendre.leggauss(12)
 _MAX_NODES = 6000
-
-
-def _num(name: str, value: Any, *, low: float = -math.inf, low_open: bool = False, fix: str = "") -> float:
-    func = "discrete_lookback"
-    try:
-        x = float(value)
-    except (TypeError, ValueError) as exc:
-        raise ParamError(f"{name}={value!r} is not a number in {func}; {fix}") from exc
-    if not math.isfinite(x) or not ((x > low) if low_open else (x >= low)):
-        bound = f"> {low}" if low_open else f">= {low}"
-        raise ParamError(f"{name}={x!r} is outside the allowed range ({bound}, finite) in {func}; {fix}")
-    return x
 
 
 def _expect_of_max(n: int, mu: float, s: float, h: Callable[[np.ndarray], np.ndarray], resolution: int) -> float:
@@ -123,17 +117,17 @@ def discrete_lookback(
     func = "discrete_lookback"
     if kind not in DISCRETE_LOOKBACK_KINDS:
         raise ParamError(f"kind={kind!r} is not one of {DISCRETE_LOOKBACK_KINDS} in {func}")
-    s0 = _num("spot", spot, low=0.0, low_open=True, fix="a spot price is positive")
-    k = _num("strike", strike, low=0.0, fix="a strike is a price level >= 0")
-    t = _num("maturity", maturity, low=0.0, low_open=True, fix="maturity is a time in years > 0")
+    s0 = _arg("spot", spot, low=0.0, low_open=True, fix="a spot price is positive")
+    k = _arg("strike", strike, low=0.0, fix="a strike is a price level >= 0")
+    t = _arg("maturity", maturity, low=0.0, low_open=True, fix="maturity is a time in years > 0")
     if isinstance(observations, bool) or not float(observations).is_integer() or observations < 1:
         raise ParamError(f"observations={observations!r} is not a whole number >= 1 in {func}; pass 1, 2, ...")
     n = int(observations)
     if isinstance(resolution, bool) or not isinstance(resolution, (int, np.integer)) or resolution < 1:
         raise ParamError(f"resolution={resolution!r} is not an integer >= 1 in {func}; pass 1, 2, ...")
-    r = _num("rate", rate, fix="pass a finite continuously compounded rate")
-    q = _num("dividend", dividend, fix="pass a finite continuous dividend yield")
-    v = _num("vol", vol, low=0.0, low_open=True, fix="a volatility is > 0 here")
+    r = _arg("rate", rate, fix="pass a finite continuously compounded rate")
+    q = _arg("dividend", dividend, fix="pass a finite continuous dividend yield")
+    v = _arg("vol", vol, low=0.0, low_open=True, fix="a volatility is > 0 here")
     dt = t / n
     s = v * math.sqrt(dt)
     rn, share = (r - q - 0.5 * v * v) * dt, (r - q + 0.5 * v * v) * dt
