@@ -197,23 +197,44 @@ _NO_UPPER = Identity(
 )
 
 
+# --- declarations shared by the discrete and the continuous double barriers -------------
+
+_AWAY_OUT = Reduction(
+    "corridor_out_of_reach",
+    {"lower": 0.0, "upper": math.inf, "rebate": REBATE},
+    becomes=_vanilla,
+    note="L = 0 and U = inf are never touched: the vanilla, the rebate never paid",
+)
+_TODAY_OUT = Reduction(
+    "touched_today",
+    {"lower": SPOT, "rebate": REBATE},
+    model_changes={"spot": SPOT},
+    becomes=lambda p: ZeroCouponBond(cash=REBATE, maturity=p.maturity),
+    note="L at the spot is touched today: knocked out at once, the rebate at T",
+)
+_AWAY_IN = Reduction(
+    "corridor_out_of_reach",
+    {"lower": 0.0, "upper": math.inf, "rebate": REBATE},
+    becomes=lambda p: ZeroCouponBond(cash=REBATE, maturity=p.maturity),
+    note="L = 0 and U = inf are never touched: never knocked in, the rebate at T",
+)
+_TODAY_IN = Reduction(
+    "touched_today",
+    {"lower": SPOT, "rebate": REBATE},
+    model_changes={"spot": SPOT},
+    becomes=_vanilla,
+    note="L at the spot is touched today: knocked in at once, the vanilla",
+)
+_WIDER_WORTH_MORE = Monotone("upper", +1, to=_wider, pathwise=True, name="worth_more_as_corridor_widens")
+_WIDER_WORTH_LESS = Monotone("upper", -1, to=_wider, pathwise=True, name="worth_less_as_corridor_widens")
+
+
 class _KnockOut(_DoubleBarrier):
     abstract = True
     out = True
     reductions = (
-        Reduction(
-            "corridor_out_of_reach",
-            {"lower": 0.0, "upper": math.inf, "rebate": REBATE},
-            becomes=_vanilla,
-            note="L = 0 and U = inf are never touched: the vanilla, the rebate never paid",
-        ),
-        Reduction(
-            "touched_today",
-            {"lower": SPOT, "rebate": REBATE},
-            model_changes={"spot": SPOT},
-            becomes=lambda p: ZeroCouponBond(cash=REBATE, maturity=p.maturity),
-            note="L at the spot is touched today: knocked out at once, the rebate at T",
-        ),
+        _AWAY_OUT,
+        _TODAY_OUT,
         _on_upper(lambda p: ZeroCouponBond(cash=REBATE, maturity=p.maturity)),
     ) + _CLOSED_FORMS
     relations = (
@@ -221,7 +242,7 @@ class _KnockOut(_DoubleBarrier):
         _NO_UPPER,
         _IN_PLUS_OUT,
         _BELOW_VANILLA,
-        Monotone("upper", +1, to=_wider, pathwise=True, name="worth_more_as_corridor_widens"),
+        _WIDER_WORTH_MORE,
     )
 
 
@@ -229,19 +250,8 @@ class _KnockIn(_DoubleBarrier):
     abstract = True
     out = False
     reductions = (
-        Reduction(
-            "corridor_out_of_reach",
-            {"lower": 0.0, "upper": math.inf, "rebate": REBATE},
-            becomes=lambda p: ZeroCouponBond(cash=REBATE, maturity=p.maturity),
-            note="L = 0 and U = inf are never touched: never knocked in, the rebate at T",
-        ),
-        Reduction(
-            "touched_today",
-            {"lower": SPOT, "rebate": REBATE},
-            model_changes={"spot": SPOT},
-            becomes=_vanilla,
-            note="L at the spot is touched today: knocked in at once, the vanilla",
-        ),
+        _AWAY_IN,
+        _TODAY_IN,
         _on_upper(_vanilla),
     ) + _CLOSED_FORMS
     relations = (
@@ -249,7 +259,7 @@ class _KnockIn(_DoubleBarrier):
         _NO_UPPER,
         _IN_PLUS_OUT,
         _BELOW_VANILLA,
-        Monotone("upper", -1, to=_wider, pathwise=True, name="worth_less_as_corridor_widens"),
+        _WIDER_WORTH_LESS,
     )
 
 
@@ -457,26 +467,15 @@ class _KnockOutContinuous(_DoubleContinuous):
     abstract = True
     out = True
     reductions = (
-        Reduction(
-            "corridor_out_of_reach",
-            {"lower": 0.0, "upper": math.inf, "rebate": REBATE},
-            becomes=_vanilla,
-            note="L = 0 and U = inf are never touched: the vanilla, the rebate never paid",
-        ),
-        Reduction(
-            "touched_today",
-            {"lower": SPOT, "rebate": REBATE},
-            model_changes={"spot": SPOT},
-            becomes=lambda p: ZeroCouponBond(cash=REBATE, maturity=p.maturity),
-            note="L at the spot is touched today: knocked out at once, the rebate at T",
-        ),
+        _AWAY_OUT,
+        _TODAY_OUT,
     ) + _CONTINUOUS_CLOSED_FORMS
     relations = (
         _NO_LOWER_C,
         _NO_UPPER_C,
         _IN_PLUS_OUT_C,
         _BELOW_VANILLA,
-        Monotone("upper", +1, to=_wider, pathwise=True, name="worth_more_as_corridor_widens"),
+        _WIDER_WORTH_MORE,
         Bound(
             "at_most_discrete",
             "<=",
@@ -491,26 +490,15 @@ class _KnockInContinuous(_DoubleContinuous):
     abstract = True
     out = False
     reductions = (
-        Reduction(
-            "corridor_out_of_reach",
-            {"lower": 0.0, "upper": math.inf, "rebate": REBATE},
-            becomes=lambda p: ZeroCouponBond(cash=REBATE, maturity=p.maturity),
-            note="L = 0 and U = inf are never touched: never knocked in, the rebate at T",
-        ),
-        Reduction(
-            "touched_today",
-            {"lower": SPOT, "rebate": REBATE},
-            model_changes={"spot": SPOT},
-            becomes=_vanilla,
-            note="L at the spot is touched today: knocked in at once, the vanilla",
-        ),
+        _AWAY_IN,
+        _TODAY_IN,
     ) + _CONTINUOUS_CLOSED_FORMS
     relations = (
         _NO_LOWER_C,
         _NO_UPPER_C,
         _IN_PLUS_OUT_C,
         _BELOW_VANILLA,
-        Monotone("upper", -1, to=_wider, pathwise=True, name="worth_less_as_corridor_widens"),
+        _WIDER_WORTH_LESS,
         Bound(
             "at_least_discrete",
             ">=",
