@@ -9,11 +9,17 @@ data.
 
 from __future__ import annotations
 
+import math
+
 from limitcase import Reduction
-from limitcase.models import LocalVol
+from limitcase.errors import NoReference
+from limitcase.models import BlackScholes, LocalVol
 from limitcase.models.localvol import example_surface
+from limitcase.references.local_vol_pde import local_vol_barrier_by_pde
+from limitcase.references.schedules import equal_steps
 from limitcase.volsurface import VarianceSurface
 
+from ._common import own_closed_form
 from .barriers import _AWAY_OUT, _DiscreteOut, DownAndOutCall
 
 __all__ = ["LocalVolDownAndOutCall", "skewed_surface"]
@@ -32,7 +38,10 @@ STEP_BIAS_REASON = (
     "log-Euler step bias of local volatility at one step per weekly date (52 a year): the "
     "1-year call struck at 90 on this surface measured -0.017 +/- 0.011 (4M paths, 48 steps), "
     "and the bias halves with the step (-1.13, -0.50, -0.21, -0.09 at 2, 4, 8, 16 steps); "
-    "declared at about the measured bias plus 3 of its standard errors"
+    "declared at about the measured bias plus 3 of its standard errors; the knock-out itself "
+    "at its defaults (1M Sobol paths) measured -0.024 +/- 0.003, -0.014 +/- 0.003 and "
+    "-0.009 +/- 0.004 at 1, 2 and 4 steps per date against the finite-difference price "
+    "11.5381 (11.5390 on a grid twice as fine)"
 )
 
 
@@ -41,10 +50,12 @@ class LocalVolDownAndOutCall(DownAndOutCall):
     the rebate R. Checked under local volatility on a skewed surface.
 
     Limits: H -> 0: the European call, priced from the implied surface (its log-Euler step
-    bias declared). H at the spot: knocked today, R only. Relations: knock-in + knock-out =
-    vanilla on every path; worth more as the barrier moves away; at most the vanilla.
-    (The continuous-barrier bound and the quadrature closed form of the Black-Scholes family
-    have no counterpart under local volatility and are left out.)
+    bias declared). H at the spot: knocked today, R only. At its own parameters: against a
+    Crank-Nicolson solution of the local-volatility pricing equation over the monitoring
+    dates (the log-Euler step bias declared). Relations: knock-in + knock-out = vanilla on
+    every path; worth more as the barrier moves away; at most the vanilla. (The
+    continuous-barrier bound of the Black-Scholes family has no counterpart under local
+    volatility and is left out.)
     """
 
     reductions = (
@@ -53,8 +64,36 @@ class LocalVolDownAndOutCall(DownAndOutCall):
             allowance=STEP_BIAS, reason=STEP_BIAS_REASON, note=_AWAY_OUT.note,
         ),
         *(r for r in _DiscreteOut.reductions if r.name not in (_AWAY_OUT.name, "closed_form")),
+        own_closed_form(
+            "closed_form", allowance=STEP_BIAS, reason=STEP_BIAS_REASON,
+            note="Monte Carlo on the monitoring dates against a finite-difference solution of the "
+                 "local-volatility pricing equation over the same dates (rebuilt from the terms)",
+        ),
     )
     relations = tuple(r for r in _DiscreteOut.relations if getattr(r, "name", "") != "at_least_continuous")
+
+    def reference(self, model):
+        """Under local volatility (no discrete dividends): Crank-Nicolson on the pricing
+        equation in log-moneyness, reset at each monitoring date (rebuilt from the terms:
+        ``monitoring`` equal steps to T), with the model's own Dupire local variance; under
+        Black-Scholes the family's recursive quadrature. A spot at or below the barrier is
+        knocked today (the product's rule)."""
+        if isinstance(model, BlackScholes):
+            return super().reference(model)
+        if not isinstance(model, LocalVol) or model.dividends:
+            raise NoReference(f"{type(self).__name__} has a reference under Black-Scholes and under local "
+                              f"volatility without discrete dividends, not {type(model).__name__}")
+        if model.spot <= self.barrier:
+            paid_now = bool(self.rebate_at_hit)
+            return self.rebate * (1.0 if paid_now else math.exp(-model.rate * self.maturity))
+        return local_vol_barrier_by_pde(
+            "down-and-out-call", model.spot, self.strike, self.barrier,
+            equal_steps(self.maturity, self.monitoring), self.maturity, model.rate, model.dividend,
+            model.surface.local_variance, rebate=self.rebate, rebate_at_hit=bool(self.rebate_at_hit),
+        )
+
+    def reference_source(self) -> str:
+        return "finite differences on the local-volatility pricing equation (Crank-Nicolson, Rannacher start)"
 
     def scenario(self) -> LocalVol:
         return LocalVol(surface=skewed_surface(), spot=SPOT, rate=RATE, dividend=DIVIDEND, substeps=1)

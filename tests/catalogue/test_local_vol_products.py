@@ -24,6 +24,7 @@ BUGS = {
     "in_plus_out_with_rebates": misses_last_date,
     "worth_more_as_barrier_moves_away": in_out_swapped,
     "at_most_vanilla": best_fixing,
+    "closed_form": only_at_maturity,
 }
 
 
@@ -51,3 +52,22 @@ def test_the_european_reference_is_the_surface_price_not_black_scholes():
     from limitcase.references import black_scholes
     assert call.reference(model) == pytest.approx(
         black_scholes(100.0, 90.0, 1.0, model.rate, model.dividend, surface_vol, "call"), rel=1e-12)
+
+
+def test_the_knock_out_reference_is_the_local_vol_equation_from_the_terms():
+    """Under the skewed surface the reference solves the local-volatility equation (not a
+    Black-Scholes formula at some volatility), over dates rebuilt from the terms: a product
+    whose dates() drop the last monitoring date keeps the same reference."""
+    product = LocalVolDownAndOutCall()
+    model = product.scenario()
+    assert "finite differences" in product.reference_source()
+    flat = model.replace(surface=model.surface.flattened())
+    assert abs(product.reference(model) - product.reference(flat)) > 0.02  # the skew matters (0.030)
+
+    class FewerDates(LocalVolDownAndOutCall):
+        def dates(self):
+            return super().dates()[:-1]
+
+    assert FewerDates().reference(model) == product.reference(model)
+    knocked = product.replace(barrier=101.0)
+    assert knocked.reference(model) == pytest.approx(knocked.rebate)

@@ -65,6 +65,7 @@ from limitcase.references.multi_asset import (
 )
 from limitcase.references.cliquets import cliquet_by_convolution
 from limitcase.references.discrete_lookbacks import DISCRETE_LOOKBACK_KINDS, discrete_lookback
+from limitcase.references.local_vol_pde import LOCAL_VOL_BARRIER_KINDS, local_vol_barrier_by_pde
 
 __all__ = [
     # blackscholes
@@ -142,4 +143,7 @@ __all__ = [
     # discrete lookbacks
     "DISCRETE_LOOKBACK_KINDS",
     "discrete_lookback",
+    # local volatility (finite differences)
+    "LOCAL_VOL_BARRIER_KINDS",
+    "local_vol_barrier_by_pde",
 ]
