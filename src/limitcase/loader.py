@@ -110,6 +110,9 @@ def _import_file(path: Path) -> ModuleType:
             raise
         except BaseException as exc:  # SystemExit too: a file must not end the run
             raise InputError(_import_message(path, exc)) from exc
+    root = _package_root(path)
+    if root is not None:
+        return _import_in_package(path, root)
     digest = hashlib.sha1(str(path).encode()).hexdigest()[:8]
     name = f"limitcase_user_{path.stem}_{digest}"
     if name in sys.modules:
@@ -131,6 +134,47 @@ def _import_file(path: Path) -> ModuleType:
         del sys.modules[name]
         raise InputError(_import_message(path, exc)) from exc
     return module
+
+
+def _package_root(path: Path) -> Path | None:
+    """The top folder of the package ``path`` belongs to (the highest folder above it whose
+    chain down to the file holds ``__init__.py`` files), or None for a loose file."""
+    root, d = None, path.parent
+    while (d / "__init__.py").is_file():
+        root, d = d, d.parent
+    return root
+
+
+def _import_in_package(path: Path, root: Path) -> ModuleType:
+    """Import a file of the user's package as a submodule, so that its relative imports
+    (``from .common import ...``) work as they do in the user's own code. The package is
+    registered under a name of its own (the folder's name and a digest of its path), so two
+    packages of the same name in different places do not collide."""
+    digest = hashlib.sha1(str(root).encode()).hexdigest()[:8]
+    stem = "".join(c if c.isalnum() or c == "_" else "_" for c in root.name)
+    top = f"limitcase_user_pkg_{stem}_{digest}"
+    try:
+        if top not in sys.modules:
+            spec = importlib.util.spec_from_file_location(top, root / "__init__.py",
+                                                          submodule_search_locations=[str(root)])
+            if spec is None or spec.loader is None:
+                raise InputError(f"{root / '__init__.py'}: cannot be imported as a Python package")
+            package = importlib.util.module_from_spec(spec)
+            sys.modules[top] = package
+            try:
+                spec.loader.exec_module(package)
+            except BaseException:
+                del sys.modules[top]
+                raise
+        parts = path.relative_to(root).with_suffix("").parts
+        return importlib.import_module(".".join((top, *parts)))
+    except KeyboardInterrupt:
+        raise
+    except InputError:
+        raise
+    except BaseException as exc:  # SystemExit too: a file must not end the run
+        failed = path if path.exists() else root / "__init__.py"
+        raise InputError(_import_message(failed, exc)) from exc
 
 
 def _import_message(path: Path, exc: BaseException) -> str:

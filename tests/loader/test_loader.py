@@ -102,6 +102,23 @@ def test_a_file_may_import_a_helper_beside_it(tmp_path):
     assert [c.__name__ for c in load_products([tmp_path / "uses_helper.py"])] == ["WithHelper"]
 
 
+def test_a_package_of_products_may_use_relative_imports(tmp_path):
+    """A desk's products kept as a package (``__init__.py``, shared terms in a private module,
+    ``from .terms import ...``) load as they import in the desk's own code."""
+    _write(tmp_path, "desk/__init__.py", "")
+    _write(tmp_path, "desk/_terms.py", "STRIKE = 95.0\n")
+    _write(tmp_path, "desk/sub/__init__.py", "")
+    _write(tmp_path, "desk/calls.py", "from ._terms import STRIKE\n" + CALL.format(name="DeskCall"))
+    _write(tmp_path, "desk/sub/more.py", "from .._terms import STRIKE\n" + CALL.format(name="DeskCall2"))
+    found = load_products([tmp_path / "desk"])
+    assert sorted(c.__name__ for c in found) == ["DeskCall", "DeskCall2"]
+    assert load_products([tmp_path / "desk" / "calls.py"]) == [c for c in found if c.__name__ == "DeskCall"]
+    _write(tmp_path, "desk/broken.py", "from .missing import X\n")
+    failures: list[LoadFailure] = []
+    load_products([tmp_path / "desk"], failures=failures)
+    assert len(failures) == 1 and "broken.py:1: the file does not import" in failures[0].message
+
+
 def test_dates_that_raise_are_an_error_for_that_product_only(tmp_path):
     _write(tmp_path, "products.py", CALL.format(name="Fine") + """
 
