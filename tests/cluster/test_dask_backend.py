@@ -15,6 +15,8 @@ import time
 from pathlib import Path
 
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 distributed = pytest.importorskip(
     "distributed", reason="the Dask backend needs 'distributed' (pip install 'limitcase[dask]')")
@@ -26,7 +28,7 @@ from click.testing import CliRunner  # noqa: E402
 from limitcase import BlackScholes  # noqa: E402
 from limitcase.audits import run_audits  # noqa: E402
 from limitcase.cli import main  # noqa: E402
-from limitcase.cluster import DaskPool, use_scheduler  # noqa: E402
+from limitcase.cluster import CHUNKS_PER_THREAD, WORKER_MALLOC_ENV, DaskPool, chunked, use_scheduler  # noqa: E402
 from limitcase.loader import load_products  # noqa: E402
 from limitcase.models.merton import Merton  # noqa: E402
 from limitcase.reduce import checks_for  # noqa: E402
@@ -182,3 +184,58 @@ def test_a_worker_killed_during_a_check_run_loses_no_block(own_address):
         spread = run_checks(checks, paths=12000, seed=7, workers=1)
         killer.join()
     assert _numbers(spread) == _numbers(one)
+
+
+# -- what makes it fast ------------------------------------------------------------------------
+
+
+@settings(max_examples=200, deadline=None)
+@given(st.integers(0, 300), st.integers(1, 80))
+def test_chunks_are_the_tasks_in_order_in_near_equal_runs(n, k):
+    tasks = list(range(n))
+    chunks = chunked(tasks, k)
+    assert [t for c in chunks for t in c] == tasks
+    assert len(chunks) == min(n, k)
+    assert all(chunks) and (not chunks or max(map(len, chunks)) - min(map(len, chunks)) <= 1)
+
+
+def test_a_local_cluster_sends_few_dask_tasks_and_keeps_freed_memory():
+    """``local:2``: the workers start with the malloc settings (their buffers are not handed
+    back to the system after every block), and a map of 300 tasks is a few Dask tasks per
+    worker thread, its results in task order."""
+    with use_scheduler("local:2") as backend:
+        env = backend.client.run(lambda: {k: os.environ.get(k) for k in WORKER_MALLOC_ENV})
+        before = sum(backend.client.run(lambda: __import__("limitcase.cluster").cluster._STATE["tasks"]).values())
+        pool = open_pool(2, 300)
+        try:
+            assert list(pool.map(abs, range(-300, 0))) == list(range(300, 0, -1))
+        finally:
+            pool.close()
+        after = sum(backend.client.run(lambda: __import__("limitcase.cluster").cluster._STATE["tasks"]).values())
+    assert len(env) == 2 and all(e == WORKER_MALLOC_ENV for e in env.values())
+    assert after - before == 2 * CHUNKS_PER_THREAD
+
+
+def _sleep_then(seconds: float, value: int) -> int:
+    time.sleep(seconds)
+    return value
+
+
+def test_a_task_past_its_time_limit_is_given_up_and_the_rest_go_on(address):
+    with use_scheduler(address):
+        pool = open_pool(2, 2)
+        lost: list[Lost] = []
+        done: list[int] = []
+        t0 = time.monotonic()
+        try:
+            def on_done(v: int) -> list:  # a result may add a task
+                done.append(v)
+                return [(abs, (-8,))] if v == 7 else []
+
+            pool.run([(_sleep_then, (4.0, 1), 0.5), (abs, (-7,))], on_done, lambda x: lost.append(x) or [])
+        finally:
+            pool.close()
+        waited = time.monotonic() - t0
+    assert sorted(done) == [7, 8]
+    assert len(lost) == 1 and lost[0].reason == "timeout" and lost[0].fn is _sleep_then
+    assert waited < 4.0  # given up at its limit, not waited for
