@@ -202,6 +202,8 @@ def run_mutation(
     progress: Callable[[int, int], None] | None = None,
     time_limit: float | None = None,
     model: Model | None = None,
+    allow_long_run: bool = False,
+    warn: Callable[[str], None] | None = None,
 ) -> MutationReport:
     """Mutate each product's payoff code, run its checks on every mutant, and score.
 
@@ -237,6 +239,15 @@ def run_mutation(
         Run every product's and every mutant's checks, and the equivalence comparison, under
         this model instead of each product's scenario (``mutate --model``); the caller leaves
         out products whose asset count differs (:func:`limitcase.plan.model_fits`).
+    allow_long_run
+        Run even when the estimated time is above the refusal limit. The run is sized once
+        the mutants are made, before anything is priced
+        (:func:`limitcase.sizing.estimate_mutation`): above
+        :data:`~limitcase.settings.RUN_REFUSE_SECONDS` it raises :class:`ParamError` with
+        the estimate unless allowed; above :data:`~limitcase.settings.RUN_WARN_SECONDS` the
+        estimate goes to ``warn`` (default: a :class:`RuntimeWarning`).
+    warn
+        Receives the warning sentence of a long run (the command line prints it).
 
     Returns
     -------
@@ -282,6 +293,19 @@ def run_mutation(
                     seed=int(seed), alpha=float(alpha), workers=workers, method=method,
                     operators=list(OPERATORS) if operators is None else list(operators),
                     model=None if model is None else model.label())
+    from ..sizing import enforce, estimate_mutation
+
+    counts = collections.Counter(m.original for m in mutants)
+    size = estimate_mutation([(cls, checks_for(cls, model), counts[cls]) for cls in product_list], paths=paths,
+                             quick_paths=quick_paths, equivalence_paths=equivalence_paths, workers=workers)
+    note = enforce(size, allow_long_run=allow_long_run,
+                   option="--allow-long-run (allow_long_run=True)")
+    if note:
+        if warn is None:
+            warnings.warn(note, RuntimeWarning, stacklevel=2)
+        else:
+            warn(note)
+    settings["estimated_seconds"] = round(size.seconds, 1)
     _REGISTRY.clear()
     _REGISTRY.update(products=product_list, mutants=mutants, settings=settings, model=model)
     index_of = {cls: i for i, cls in enumerate(product_list)}
