@@ -55,6 +55,11 @@ def main() -> None:
     print(f"cpu_seconds_total: {sum(cpu.values()):.1f}")
     print(f"runtime_in_library: {doc.get('runtime_seconds', '?')}")
     print(f"counts: {doc.get('counts', '?')}")
+    full = settings.get("paths")
+    again = sum(1 for m in doc.get("mutants", []) if full is not None and m.get("paths") == full
+                and settings.get("quick_paths") != full)
+    print(f"first_pass_survivors: {again} of {len(doc.get('mutants', []))} (run again at the full budget)")
+    print(f"estimated_seconds_up_front: {settings.get('estimated_seconds', '?')}")
     print(f"workers: {args.workers}")
     print(f"load_before: {load_before}")
     print(f"load_after: {load_text()}")

@@ -23,7 +23,9 @@ from ..suite import DEFAULT_ALPHA, DEFAULT_PATHS, DEFAULT_SEED, run_check
 from ..verdict import Outcome, finalise
 from ..workers import Lost, open_pool
 from .advice import suggest, suggest_hidden
-from .equivalence import EQUIVALENCE_PATHS, Equivalence, PointDifference, equivalence, probe_difference
+from .equivalence import (
+    EQUIVALENCE_PATHS, Equivalence, PointDifference, check_points, equivalence, probe_difference,
+)
 from .mutants import Discarded, Mutant, make_mutants
 from .operators import OPERATORS
 from .encoding import json_safe
@@ -53,6 +55,21 @@ _REGISTRY: dict[str, Any] = {}
 dynamically built class cannot be pickled, but a forked worker inherits it)."""
 
 
+_CHECKS: dict[type, list] = {}
+"""The checks of the last product class built in this process: a mutant's task builds them
+for its equivalence points and again for its checks (the references they carry are the
+costly part); a :class:`~limitcase.checks.Check` is frozen, so one list serves both."""
+
+
+def _checks_of(cls: type[Product]) -> list:
+    found = _CHECKS.get(cls)
+    if found is None:
+        found = checks_for(cls, _REGISTRY.get("model"))
+        _CHECKS.clear()
+        _CHECKS[cls] = found
+    return found
+
+
 def _run_each(cls: type[Product], paths: int, s: dict, order: Sequence[int] | None = None,
               baseline: Sequence[str] | None = None
               ) -> tuple[list[Outcome | None], list[float], str, int | None]:
@@ -69,7 +86,7 @@ def _run_each(cls: type[Product], paths: int, s: dict, order: Sequence[int] | No
     try:
         with np.errstate(all="ignore"), warnings.catch_warnings():
             warnings.simplefilter("ignore")
-            checks = checks_for(cls, _REGISTRY.get("model"))
+            checks = _checks_of(cls)
             raw = [None] * len(checks)
             seconds = [0.0] * len(checks)
             limit = s["alpha"] / max(1, len(checks))
@@ -144,8 +161,10 @@ def _task_original(index: int, paths: int) -> tuple[int, int, list[Outcome], flo
 
 def _safe_equivalence(mutant: Mutant, paths: int, seed: int, stop_early: bool) -> Equivalence:
     try:
+        model = _REGISTRY.get("model")
+        points = check_points(mutant.cls, _checks_of(mutant.cls), model)
         return equivalence(mutant.cls, mutant.original, paths=paths, seed=seed, stop_early=stop_early,
-                           model=_REGISTRY.get("model"), site=(mutant.file, mutant.mutation.line))
+                           model=model, points=points, site=(mutant.file, mutant.mutation.line))
     except Exception as exc:  # the comparison itself broke on the mutant: it is not equivalent
         return Equivalence(False, (PointDifference("(comparison)", note=f"{type(exc).__name__}: {exc}"),))
 
@@ -307,6 +326,7 @@ def run_mutation(
             warn(note)
     settings["estimated_seconds"] = round(size.seconds, 1)
     _REGISTRY.clear()
+    _CHECKS.clear()
     _REGISTRY.update(products=product_list, mutants=mutants, settings=settings, model=model)
     index_of = {cls: i for i, cls in enumerate(product_list)}
     budgets = tuple(dict.fromkeys((quick_paths, paths)))
@@ -407,6 +427,7 @@ def run_mutation(
     finally:
         pool.close()
         _REGISTRY.clear()
+        _CHECKS.clear()
 
     results: list[MutantResult] = []
     for k, m in enumerate(mutants):
