@@ -56,6 +56,8 @@ __all__ = [
     "RUN_WARN_SECONDS",
     "RUN_REFUSE_SECONDS",
     "PATH_DATES_PER_SECOND",
+    "MUTATE_SURVIVOR_SHARE",
+    "AUDIT_UNITS_PER_PATH",
     "default_workers",
     "validate_run",
     "reproduce_command",
@@ -206,6 +208,18 @@ paths under ``auto`` with one process on a shared two-core machine: 112 s, 2.0e7
 A faster machine finishes sooner than the estimate; the limits are wide enough (an hour, a
 week) for that not to matter."""
 
+
+MUTATE_SURVIVOR_SHARE = 0.25
+"""The sizing of a mutation run (:func:`limitcase.sizing.estimate_mutation`) counts this share
+of the mutants as survivors of the first pass, run again at the full budget. Measured on the
+shipped catalogue at the defaults: SURVIVOR_MEASUREMENT (rounded up)."""
+
+AUDIT_UNITS_PER_PATH = 250.0
+"""The sizing of a dossier counts each audited model's engine audits as this many path-date
+units (as :data:`PATH_DATES_PER_SECOND` counts them) per audit path. Measured with
+``limitcase.audits.audit_model`` at 20,000 paths on the catalogue's scenario models (CPU
+seconds x :data:`PATH_DATES_PER_SECOND` / paths): 49-58 for Black-Scholes, 109 with cash
+dividends, 122 under local volatility, 180 and 238 for two and three assets."""
 
 def default_workers() -> int:
     """The cores this process may use."""

@@ -153,3 +153,22 @@ def test_ctrl_c_ends_a_check_run_within_seconds_without_traceback():
         assert seconds < 5.0, (delay, seconds)
         assert "Traceback" not in err, err
         assert code != 0
+
+
+@pytest.mark.parametrize("workers", [1, 2])
+def test_a_busy_looping_mutant_is_reported_as_timeout_and_the_run_goes_on(workers):
+    """The mutant ``pause < 0`` -> ``pause <= 0`` spins in a Python loop that never ends (no
+    sleep, the CPU busy): with a 2 s limit it is stopped and reported as ``timeout``, and
+    every other mutant is judged."""
+    from .stalling_products import LoopingCall
+
+    t0 = time.monotonic()
+    report = run_mutation([LoopingCall], paths=2000, quick_paths=2000, equivalence_paths=2048,
+                          workers=workers, time_limit=2.0)
+    assert time.monotonic() - t0 < 60.0
+    looping = [r for r in report.results if r.status == "timeout"]
+    assert len(looping) == 1 and "self.pause <= 0.0" in looping[0].diff, [r.diff for r in report.results]
+    assert "time limit of 2 s" in looping[0].message
+    others = [r for r in report.results if r.status != "timeout"]
+    assert others and all(r.status in ("caught", "error", "survived", "equivalent") for r in others)
+    assert any(r.status == "caught" for r in others)

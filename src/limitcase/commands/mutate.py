@@ -88,13 +88,17 @@ class _Ticker:
               help="Run every product and every mutant under this model instead of its scenario: a shipped "
                    "name with overrides (heston:kappa=2) or a file (my_model.py, my_model.py:Class:vol=0.3). "
                    "Products with another asset count are skipped.")
+@click.option("--allow-long-run", is_flag=True,
+              help="Run even when the estimated time is above the refusal limit (a week; see "
+                   "limitcase.settings.RUN_REFUSE_SECONDS). Above an hour a warning gives the estimate.")
 @click.option("--debug", is_flag=True, help="Show tracebacks for bad input.")
 @handle_errors
 @scheduler_option
 def command(paths_in: tuple[str, ...], paths: int, quick_paths: int | None, equivalence_paths: int | None,
             seed: int, alpha: float, workers: int | None, method: str, operators: tuple[str, ...],
             selects: tuple[str, ...], min_score: float | None, show_caught: bool, json_path: str | None,
-            time_limit: float | None, debug: bool, model_spec: str | None = None) -> None:
+            time_limit: float | None, debug: bool, model_spec: str | None = None,
+            allow_long_run: bool = False) -> None:
     """Mutate the payoff code of the products in PATH (files or folders of .py files;
     default: the shipped catalogue), run each product's own checks on every mutant and
     report which bugs are caught, which survive (with the check that would catch them)
@@ -144,7 +148,8 @@ def command(paths_in: tuple[str, ...], paths: int, quick_paths: int | None, equi
         report = run_mutation(products, paths=paths, quick_paths=quick,
                               equivalence_paths=equivalence_paths or EQUIVALENCE_PATHS, seed=seed, alpha=alpha,
                               workers=workers, operators=list(operators) or None, method=method, progress=progress,
-                              time_limit=time_limit, model=model)
+                              time_limit=time_limit, model=model, allow_long_run=allow_long_run,
+                              warn=lambda note: click.echo(note, err=True))
     finally:
         progress.close()
 

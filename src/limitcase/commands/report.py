@@ -54,6 +54,9 @@ from ..settings import DEFAULT_ALPHA, DEFAULT_SEED, METHODS, REPORT_OUTPUT, REPO
               help="Every product under this model instead of its scenario (a shipped name with overrides, "
                    "or a model file; as limitcase check --model). Products with another asset count are listed, "
                    "not run.")
+@click.option("--allow-long-run", is_flag=True,
+              help="Run even when the estimated time is above the refusal limit (a week; see "
+                   "limitcase.settings.RUN_REFUSE_SECONDS). Above an hour a warning gives the estimate.")
 @click.option("--debug", is_flag=True, help="Show tracebacks for bad input.")
 @handle_errors
 @scheduler_option
@@ -61,7 +64,7 @@ def command(paths_in: tuple[str, ...], outdir: str, paths: int, seed: int, alpha
             selects: tuple[str, ...], regression_paths: int | None, method: str, workers: int | None,
             no_audits: bool, audit_paths: int | None, json_path: str | None,
             junit_path: str | None, mutations_path: str | None, min_score: float | None, debug: bool,
-            model_spec: str | None = None) -> None:
+            model_spec: str | None = None, allow_long_run: bool = False) -> None:
     """Write the limit-behaviour dossier of the products in PATH (files or folders of .py
     files; default: the shipped catalogue): for each product its payoff, parameters, a
     sweep toward each declared limit with the base value, relations, audits and
@@ -96,6 +99,8 @@ def command(paths_in: tuple[str, ...], outdir: str, paths: int, seed: int, alpha
             workers=workers,
             progress=on_progress,
             model=model,
+            allow_long_run=allow_long_run,
+            warn=lambda note: click.echo(note, err=True),
         )
     finally:
         progress.close()

@@ -9,6 +9,7 @@ renders it.
 from __future__ import annotations
 
 import json
+import warnings
 import re
 import time
 from dataclasses import dataclass, field
@@ -237,6 +238,8 @@ def build_dossier(
     workers: int = 1,
     progress: Callable[[int, int], None] | None = None,
     model: Any = None,
+    allow_long_run: bool = False,
+    warn: Callable[[str], None] | None = None,
 ) -> Dossier:
     """Compute everything the dossier of ``products`` shows.
 
@@ -249,6 +252,13 @@ def build_dossier(
     total)`` is called as checks, sweeps, convergence runs and audits finish. ``model``:
     every product under that model instead of its scenario (``report --model``); a product
     whose asset count differs is listed with the reason and not run.
+
+    The dossier is sized once its checks are built, before anything is priced
+    (:func:`limitcase.sizing.estimate_dossier`): above
+    :data:`~limitcase.settings.RUN_REFUSE_SECONDS` it raises
+    :class:`~limitcase.errors.ParamError` with the estimate unless ``allow_long_run``;
+    above :data:`~limitcase.settings.RUN_WARN_SECONDS` the estimate goes to ``warn``
+    (default: a :class:`RuntimeWarning`).
     """
     started = time.monotonic()
     chosen = [c for c in products if not selects or any(s in c.__name__ for s in selects)]
@@ -296,6 +306,17 @@ def build_dossier(
         for p in built:
             m = p.scenario() if model is None else model
             models.setdefault(m.label(), m)
+    from ..sizing import enforce, estimate_dossier
+
+    size = estimate_dossier(all_checks, [(p, p.scenario() if model is None else model) for p in built], paths=paths,
+                            points=points, audit_paths=audit_paths or DEFAULT_PATHS, audited_models=len(models),
+                            workers=workers, regression_paths=regression_paths)
+    note = enforce(size, allow_long_run=allow_long_run, option="--allow-long-run (allow_long_run=True)")
+    if note:
+        if warn is None:
+            warnings.warn(note, RuntimeWarning, stacklevel=2)
+        else:
+            warn(note)
     total = len(all_checks) + sum(len(type(p).reductions) + 2 for p in built) + len(models)
     done = [0]
 
@@ -306,7 +327,7 @@ def build_dossier(
 
     result = run_checks(all_checks, paths=paths, seed=seed, alpha=alpha, regression_paths=regression_paths,
                         progress=lambda i, n: report(i), method=method, workers=workers,
-                        audit_models=False)  # the dossier audits its models itself, a family of their own
+                        audit_models=False, allow_long_run=True)  # sized above; the dossier audits its models itself, a family of their own
     report(len(all_checks))
 
     jobs = [(p, paths, seed, points, regression_paths, model) for p in built]

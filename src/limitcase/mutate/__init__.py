@@ -87,7 +87,9 @@ re-entrant (the worker registry is module state).
 Layout
 ------
 :mod:`~limitcase.mutate.operators` (the slips), :mod:`~limitcase.mutate.mutants` (scope,
-mutations of one function, compiled mutant classes), :mod:`~limitcase.mutate.equivalence`,
+mutations of one function, compiled mutant classes), :mod:`~limitcase.mutate.equivalence` (with :mod:`~limitcase.mutate.dead`: a mutant whose
+statement the original never runs on a point's paths reuses the original's comparison with
+itself, the same numbers bit for bit),
 :mod:`~limitcase.mutate.running` (the checks on the mutants, over the shared pool),
 :mod:`~limitcase.mutate.advice` (what check would catch a survivor),
 :mod:`~limitcase.mutate.scores` (records and scores). Import from ``limitcase.mutate``.

@@ -20,6 +20,7 @@ from ..product import Cashflows, Observed, Product
 from ..reduce import Check, checks_for
 from ..settings import MUTATE_EQUIVALENCE_PATHS, MUTATE_EQUIVALENCE_REGRESSION_PATHS
 from ..suite import DEFAULT_SEED
+from .dead import reuse_or_compare
 from .encoding import json_safe
 
 __all__ = [
@@ -187,9 +188,10 @@ def probe_point(cls: type[Product], model: Model | None = None) -> Point | None:
 
 
 def probe_difference(mutant_cls: type[Product], original: type[Product], *, paths: int = EQUIVALENCE_PATHS,
-                     seed: int = DEFAULT_SEED, model: Model | None = None) -> PointDifference | None:
+                     seed: int = DEFAULT_SEED, model: Model | None = None,
+                     site: tuple[str, int] | None = None) -> PointDifference | None:
     """How the mutant compares with the original at :func:`probe_point` (``None`` if no
-    such point can be made); under ``model`` when given."""
+    such point can be made); under ``model`` when given; ``site`` as for :func:`equivalence`."""
     pt = probe_point(mutant_cls, model)
     if pt is None:
         return None
@@ -197,8 +199,8 @@ def probe_difference(mutant_cls: type[Product], original: type[Product], *, path
     n, bad, note = _edge_compare(orig, pt.product, pt.model, seed)
     if note and "dates" in note:
         return PointDifference(pt.label, n, bad, note=note)
-    v, diff, se, price, sd, rnote = _random_compare(orig, pt.product, pt.model, paths, seed,
-                                                    case_key(original.__name__, "mutation-probe"))
+    v, diff, se, price, sd, rnote = reuse_or_compare(_random_compare, orig, pt.product, pt.model, paths, seed,
+                                                     case_key(original.__name__, "mutation-probe"), site)
     return PointDifference(pt.label, n, bad, paths, v, diff, se, price, sd, note or rnote)
 
 
@@ -365,7 +367,7 @@ def _random_compare(original: Product, mutant: Product, model: Model, paths: int
 
 def equivalence(mutant_cls: type[Product], original: type[Product], *, paths: int = EQUIVALENCE_PATHS,
                 seed: int = DEFAULT_SEED, points: Sequence[Point] | None = None, stop_early: bool = False,
-                model: Model | None = None) -> Equivalence:
+                model: Model | None = None, site: tuple[str, int] | None = None) -> Equivalence:
     """Whether a mutant pays what the original pays at every parameter point of the checks.
 
     Parameters
@@ -382,6 +384,11 @@ def equivalence(mutant_cls: type[Product], original: type[Product], *, paths: in
         Stop at the first point where the mutant differs (enough to know it is real).
     model
         The model every check runs under (``--model``); default: each product's scenario.
+    site
+        ``(module file, line)`` of the mutated node: where the original, run on a point's
+        paths in the mutant's place, never executes that statement, the simulated comparison
+        is the original's against itself, computed once per point and reused
+        (:mod:`limitcase.mutate.dead`); the same numbers, bit for bit.
 
     Notes
     -----
@@ -407,8 +414,8 @@ def equivalence(mutant_cls: type[Product], original: type[Product], *, paths: in
             if stop_early:
                 break
             continue
-        v, diff, se, price, sd, rnote = _random_compare(orig, pt.product, pt.model, paths, seed,
-                                                        case_key(name, "mutation-equivalence", str(i)))
+        v, diff, se, price, sd, rnote = reuse_or_compare(_random_compare, orig, pt.product, pt.model, paths, seed,
+                                                         case_key(name, "mutation-equivalence", str(i)), site)
         pd = PointDifference(pt.label, n, bad, paths, v, diff, se, price, sd, note or rnote)
         results.append(pd)
         if stop_early and pd.differs:

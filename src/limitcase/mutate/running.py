@@ -23,7 +23,9 @@ from ..suite import DEFAULT_ALPHA, DEFAULT_PATHS, DEFAULT_SEED, run_check
 from ..verdict import Outcome, finalise
 from ..workers import Lost, open_pool
 from .advice import suggest, suggest_hidden
-from .equivalence import EQUIVALENCE_PATHS, Equivalence, PointDifference, equivalence, probe_difference
+from .equivalence import (
+    EQUIVALENCE_PATHS, Equivalence, PointDifference, check_points, equivalence, probe_difference,
+)
 from .mutants import Discarded, Mutant, make_mutants
 from .operators import OPERATORS
 from .encoding import json_safe
@@ -53,6 +55,21 @@ _REGISTRY: dict[str, Any] = {}
 dynamically built class cannot be pickled, but a forked worker inherits it)."""
 
 
+_CHECKS: dict[type, list] = {}
+"""The checks of the last product class built in this process: a mutant's task builds them
+for its equivalence points and again for its checks (the references they carry are the
+costly part); a :class:`~limitcase.checks.Check` is frozen, so one list serves both."""
+
+
+def _checks_of(cls: type[Product]) -> list:
+    found = _CHECKS.get(cls)
+    if found is None:
+        found = checks_for(cls, _REGISTRY.get("model"))
+        _CHECKS.clear()
+        _CHECKS[cls] = found
+    return found
+
+
 def _run_each(cls: type[Product], paths: int, s: dict, order: Sequence[int] | None = None,
               baseline: Sequence[str] | None = None
               ) -> tuple[list[Outcome | None], list[float], str, int | None]:
@@ -69,7 +86,7 @@ def _run_each(cls: type[Product], paths: int, s: dict, order: Sequence[int] | No
     try:
         with np.errstate(all="ignore"), warnings.catch_warnings():
             warnings.simplefilter("ignore")
-            checks = checks_for(cls, _REGISTRY.get("model"))
+            checks = _checks_of(cls)
             raw = [None] * len(checks)
             seconds = [0.0] * len(checks)
             limit = s["alpha"] / max(1, len(checks))
@@ -144,8 +161,10 @@ def _task_original(index: int, paths: int) -> tuple[int, int, list[Outcome], flo
 
 def _safe_equivalence(mutant: Mutant, paths: int, seed: int, stop_early: bool) -> Equivalence:
     try:
+        model = _REGISTRY.get("model")
+        points = check_points(mutant.cls, _checks_of(mutant.cls), model)
         return equivalence(mutant.cls, mutant.original, paths=paths, seed=seed, stop_early=stop_early,
-                           model=_REGISTRY.get("model"))
+                           model=model, points=points, site=(mutant.file, mutant.mutation.line))
     except Exception as exc:  # the comparison itself broke on the mutant: it is not equivalent
         return Equivalence(False, (PointDifference("(comparison)", note=f"{type(exc).__name__}: {exc}"),))
 
@@ -167,7 +186,7 @@ def _task_mutant(mid: int, stage: str, baseline: Sequence[str], order: Sequence[
         if eq.equivalent:
             try:
                 off = probe_difference(mutant.cls, mutant.original, paths=s["equivalence_paths"], seed=s["seed"],
-                                       model=_REGISTRY.get("model"))
+                                       model=_REGISTRY.get("model"), site=(mutant.file, mutant.mutation.line))
             except Exception as exc:
                 off = PointDifference("(probe)", note=f"{type(exc).__name__}: {exc}")
             out.update(status="equivalent", paths=0, cases=[], message="", probe=off,
@@ -202,6 +221,8 @@ def run_mutation(
     progress: Callable[[int, int], None] | None = None,
     time_limit: float | None = None,
     model: Model | None = None,
+    allow_long_run: bool = False,
+    warn: Callable[[str], None] | None = None,
 ) -> MutationReport:
     """Mutate each product's payoff code, run its checks on every mutant, and score.
 
@@ -237,6 +258,15 @@ def run_mutation(
         Run every product's and every mutant's checks, and the equivalence comparison, under
         this model instead of each product's scenario (``mutate --model``); the caller leaves
         out products whose asset count differs (:func:`limitcase.plan.model_fits`).
+    allow_long_run
+        Run even when the estimated time is above the refusal limit. The run is sized once
+        the mutants are made, before anything is priced
+        (:func:`limitcase.sizing.estimate_mutation`): above
+        :data:`~limitcase.settings.RUN_REFUSE_SECONDS` it raises :class:`ParamError` with
+        the estimate unless allowed; above :data:`~limitcase.settings.RUN_WARN_SECONDS` the
+        estimate goes to ``warn`` (default: a :class:`RuntimeWarning`).
+    warn
+        Receives the warning sentence of a long run (the command line prints it).
 
     Returns
     -------
@@ -282,7 +312,21 @@ def run_mutation(
                     seed=int(seed), alpha=float(alpha), workers=workers, method=method,
                     operators=list(OPERATORS) if operators is None else list(operators),
                     model=None if model is None else model.label())
+    from ..sizing import enforce, estimate_mutation
+
+    counts = collections.Counter(m.original for m in mutants)
+    size = estimate_mutation([(cls, checks_for(cls, model), counts[cls]) for cls in product_list], paths=paths,
+                             quick_paths=quick_paths, equivalence_paths=equivalence_paths, workers=workers)
+    note = enforce(size, allow_long_run=allow_long_run,
+                   option="--allow-long-run (allow_long_run=True)")
+    if note:
+        if warn is None:
+            warnings.warn(note, RuntimeWarning, stacklevel=2)
+        else:
+            warn(note)
+    settings["estimated_seconds"] = round(size.seconds, 1)
     _REGISTRY.clear()
+    _CHECKS.clear()
     _REGISTRY.update(products=product_list, mutants=mutants, settings=settings, model=model)
     index_of = {cls: i for i, cls in enumerate(product_list)}
     budgets = tuple(dict.fromkeys((quick_paths, paths)))
@@ -383,6 +427,7 @@ def run_mutation(
     finally:
         pool.close()
         _REGISTRY.clear()
+        _CHECKS.clear()
 
     results: list[MutantResult] = []
     for k, m in enumerate(mutants):

@@ -1,0 +1,55 @@
+"""A mutant in a statement the original never runs on a comparison's paths reuses the
+original's comparison against itself (limitcase.mutate.dead): the equivalence records must be
+exactly those of comparing the mutant itself, for every mutant, reused or not."""
+
+from __future__ import annotations
+
+import sys
+
+import pytest
+
+from limitcase.loader import load_products
+from limitcase.mutate import equivalence, make_mutants, probe_difference
+from limitcase.mutate import dead
+
+PRODUCTS = ("DownAndOutPut", "BermudanPut", "GapCall", "SpreadCall")
+
+
+@pytest.mark.parametrize("name", PRODUCTS)
+def test_reused_comparisons_are_the_mutants_own_bit_for_bit(name, monkeypatch):
+    (cls,) = [c for c in load_products(()) if c.__name__ == name]
+    mutants, _ = make_mutants(cls)
+    calls = {"compared": 0}
+    real = dead.reuse_or_compare
+
+    def counting(compare, *args):
+        def counted(*a):
+            calls["compared"] += 1
+            return compare(*a)
+        return real(counted, *args)
+
+    monkeypatch.setattr(sys.modules["limitcase.mutate.equivalence"], "reuse_or_compare", counting)
+    dead._RESULTS.clear()
+    reused_somewhere = 0
+    for m in mutants:
+        site = (m.file, m.mutation.line)
+        before = calls["compared"]
+        fast = equivalence(m.cls, m.original, paths=2048, site=site)
+        spent = calls["compared"] - before
+        slow = equivalence(m.cls, m.original, paths=2048, site=None)
+        assert fast.to_dict() == slow.to_dict(), f"{m.id}: {m.mutation.description}"
+        if fast.equivalent:
+            a = probe_difference(m.cls, m.original, paths=2048, site=site)
+            b = probe_difference(m.cls, m.original, paths=2048, site=None)
+            assert a == b, m.id
+        reused_somewhere += spent < len(fast.points)
+    if name == "DownAndOutPut":  # the up-barrier branch and the rebate-at-hit branch are never run
+        assert reused_somewhere >= 5
+
+
+def test_a_statement_that_defines_is_never_judged_dead(tmp_path):
+    src = tmp_path / "m.py"
+    src.write_text("def f(x, k=2):\n    if x > 0:\n        return (x +\n                k)\n    return 0\n")
+    assert dead.mutated_lines(str(src), 1) is None  # the default k=2 is evaluated at import
+    assert list(dead.mutated_lines(str(src), 2)) == [2]  # the header of the if, not its body
+    assert list(dead.mutated_lines(str(src), 4)) == [3, 4]  # the whole return statement
