@@ -218,7 +218,7 @@ class Autocallable(_Note):
         _at_the_levels({"trigger": math.inf}),
         Reduction(
             "called_at_the_trigger",
-            {},
+            {"trigger": 1.0},
             becomes=lambda p: ZeroCouponBond(cash=p.notional * (1.0 + p.coupon), maturity=p.dates()[0]),
             model_changes=PINNED,
             note="the asset pinned at the trigger: a fixing equal to it calls the note, N (1 + c) at t_1",

@@ -167,9 +167,11 @@ _CLOSED_FORMS = (
 def _empty_window(value):
     return Reduction(
         "empty_window",
-        {"window_start": 0.3, "window_end": 0.32, "rebate": REBATE},
+        {"window_start": lambda p: 0.3 * p.maturity / p.monitoring,
+         "window_end": lambda p: 0.6 * p.maturity / p.monitoring, "rebate": REBATE},
         becomes=value,
-        note="[0.30, 0.32] holds none of the dates k/12: the barrier is never watched",
+        note="a window inside the first monitoring interval, [0.3, 0.6] T/n, holds no date: the barrier is never "
+             "watched",
     )
 
 
