@@ -9,7 +9,7 @@ makes them, the engine and the suite read them, and neither needs the other to d
 from __future__ import annotations
 
 from dataclasses import dataclass
-from typing import TYPE_CHECKING
+from typing import TYPE_CHECKING, Callable
 
 if TYPE_CHECKING:  # pragma: no cover
     from .models.base import Model
@@ -76,7 +76,9 @@ class Check:
 
     ``origin`` marks a check at an interior parameter point (:mod:`limitcase.interior`);
     ``path_share`` is the share of the run's paths it is priced with (sized from the power it
-    needs, :data:`limitcase.settings.INNER_PATH_SHARE`)."""
+    needs, :data:`limitcase.settings.INNER_PATH_SHARE`). ``direct``, when given, decides the
+    check without Monte Carlo (a deterministic check on given paths, :mod:`limitcase.ties`):
+    it returns ``(ok, message, paths)``, ``ok`` None for nothing to decide (a skip)."""
 
     product: str
     case: str
@@ -95,6 +97,7 @@ class Check:
     skip: str | None = None
     origin: Origin | None = None
     path_share: float = 1.0
+    direct: "Callable[[], tuple[bool | None, str, int]] | None" = None
 
     @property
     def label(self) -> str:

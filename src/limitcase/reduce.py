@@ -45,6 +45,7 @@ __all__ = [
     "reduction_checks",
     "LEGS_SUFFIX",
     "PathRule",
+    "require_param",
 ]
 
 Value = Any  # a number, or a callable of the product giving one
@@ -69,6 +70,10 @@ def _require_param(cls: type, what: str, name: Any, verb: str = "names") -> None
         raise DeclarationError(
             f"{cls.__name__}: {what} {verb} {name!r}, which is not a parameter{_suggest(name, known)}"
         )
+
+
+require_param = _require_param
+"""For relations declared in other modules (:class:`limitcase.ties.Tie`)."""
 
 
 def _param_value(product: Product, what: str, name: str) -> Any:

@@ -139,6 +139,7 @@ class _Item:
     error: str | None = None
     status: str = ""
     done: bool = False
+    direct: Outcome | None = None
 
 
 class _Run:
@@ -249,6 +250,10 @@ def _execute(
     for item in run.items:
         if item.check.error is not None or item.check.skip is not None:
             item.error = item.check.error
+            finish(item)
+            continue
+        if item.check.direct is not None:
+            item.direct = direct_outcome(item.check, seed)
             finish(item)
             continue
         try:
@@ -368,8 +373,27 @@ def _next_round(it: _Item, precision: Precision, alpha: float, m: int, max_paths
     it.paths = n
 
 
+def direct_outcome(check: Check, seed: int) -> Outcome:
+    """The outcome of a check decided without Monte Carlo (``check.direct``): a pass or an
+    outright failure (p = 0, like a broken path-by-path identity), or a skip when nothing
+    decides; an exception of the product's code is an error for this check only."""
+    assert check.direct is not None
+    base = dict(product=check.product, case=check.case, kind=check.kind, seed=seed, note=check.note,
+                target_source=check.target_source, legs=tuple(p.label() for p in check.legs))
+    try:
+        ok, message, n = check.direct()
+    except Exception as exc:  # the product's own code on the given paths
+        return Outcome(verdict="error", message=_error_text(exc), **base)
+    if ok is None:
+        return Outcome(verdict="skip", message=message, paths=n, **base)
+    return Outcome(verdict="pass", message=message, paths=n, p_value=1.0 if ok else 0.0, pathwise_ok=bool(ok),
+                   difference=0.0 if ok else None, **base)
+
+
 def _outcome(it: _Item, seed: int, precision: Precision | None, alpha: float) -> Outcome:
     check = it.check
+    if it.direct is not None:
+        return it.direct
     base = dict(product=check.product, case=check.case, kind=check.kind, paths=it.acc.paths if it.acc else 0,
                 seed=seed, note=check.note)
     if check.error is None and check.skip is not None:
@@ -455,6 +479,8 @@ def run_check(
     prec = parse_precision(precision) if precision is not None else None
     if check.error is None and check.skip is not None:
         return skip_outcome(check, seed)
+    if check.error is None and check.direct is not None:
+        return direct_outcome(check, seed)
     if prec is None and check.error is None:
         base = dict(product=check.product, case=check.case, kind=check.kind, paths=paths, seed=seed,
                     note=check.note)
