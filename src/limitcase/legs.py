@@ -15,7 +15,7 @@ from typing import Any, Callable, Sequence
 
 import numpy as np
 
-from .errors import ParamError, PayoffError
+from .errors import NegativeAmount, ParamError, PayoffError
 from .models.base import Model, Simulated
 from .product import Cashflows, Observed, Product
 
@@ -204,9 +204,10 @@ def present_values(leg: Leg, obs: Observed, rate: float, policy: Any) -> np.ndar
         )
     if leg.product.nonnegative and amount.min(initial=0.0) < -1e-12:
         rows = np.flatnonzero((amount < -1e-12).reshape(n, -1).any(axis=1))
-        raise PayoffError(
-            f"{name} pays a negative amount ({amount.min():.6g}) on {rows.size} of {n} paths; "
-            "an option cannot (set nonnegative = False on products that can)"
+        raise NegativeAmount(
+            f"{name} pays a negative amount ({amount.min():.6g}) on {rows.size} of {n} paths (first at path "
+            f"{rows[0]} of its block) although it is declared non-negative; an option cannot "
+            "(set nonnegative = False on products that can)"
         )
     pv = amount * disc
     return pv if pv.ndim == 1 else pv.sum(axis=1)

@@ -42,7 +42,7 @@ from typing import Any, Callable, Sequence
 from .case import BlockResult, Case, Setup
 from .checks import Check
 from .controls import gather_controls
-from .errors import LimitcaseError, ParamError
+from .errors import LimitcaseError, NegativeAmount, ParamError
 from .modelaudit import mark_checks, plan_model_audits, run_model_audits
 from .sampling import parse_method
 from .settings import (
@@ -189,9 +189,17 @@ def _task_blocks(args: tuple[int, int, Setup, int, int, int]) -> tuple[int, list
         return i, None, _error_text(exc)
 
 
+FAILED = "failed: "
+"""Prefix of a check's error text that is a failure, not an error: a product declared
+non-negative that pays a negative amount (:class:`~limitcase.errors.NegativeAmount`)."""
+
+
 def _error_text(exc: BaseException) -> str:
     """The message of a check's error: ours as they are; anything else (raised by the product's
-    own code where no boundary wrapped it) with its type and the line it came from."""
+    own code where no boundary wrapped it) with its type and the line it came from. A negative
+    amount of a non-negative product is a failure: its text starts with :data:`FAILED`."""
+    if isinstance(exc, NegativeAmount):
+        return FAILED + str(exc)
     if isinstance(exc, LimitcaseError):
         return str(exc)
     import traceback
@@ -373,6 +381,14 @@ def _next_round(it: _Item, precision: Precision, alpha: float, m: int, max_paths
     it.paths = n
 
 
+def negative_outcome(check: Check, message: str, seed: int, paths: int = 0) -> Outcome:
+    """A product declared non-negative paid a negative amount: the check fails outright
+    (p = 0, like a broken path-by-path identity), with the message naming the product."""
+    return Outcome(product=check.product, case=check.case, kind=check.kind, verdict="pass", p_value=0.0,
+                   pathwise_ok=False, message=message, paths=paths, seed=seed, note=check.note,
+                   target_source=check.target_source, legs=tuple(p.label() for p in check.legs))
+
+
 def direct_outcome(check: Check, seed: int) -> Outcome:
     """The outcome of a check decided without Monte Carlo (``check.direct``): a pass or an
     outright failure (p = 0, like a broken path-by-path identity), or a skip when nothing
@@ -398,6 +414,8 @@ def _outcome(it: _Item, seed: int, precision: Precision | None, alpha: float) ->
                 seed=seed, note=check.note)
     if check.error is None and check.skip is not None:
         return skip_outcome(check, seed)
+    if it.error is not None and it.error.startswith(FAILED):
+        return negative_outcome(check, it.error[len(FAILED):], seed, base["paths"])
     if it.error is not None:
         legs = tuple(p.label() for p in check.legs) if it.case is not None else ()
         method = it.case.method if it.case is not None else "plain"
@@ -496,6 +514,8 @@ def run_check(
                 if on_batch is not None:
                     on_batch(acc.paths)
             joint = acc.joint(setup)
+        except NegativeAmount as exc:  # a failure of the check, not an error
+            return negative_outcome(check, str(exc), seed, paths)
         except Exception as exc:  # the product's own code too: an error for this check only
             return Outcome(verdict="error", message=_error_text(exc), legs=tuple(p.label() for p in check.legs),
                            **base)
