@@ -16,9 +16,10 @@ import numpy as np
 
 from ..errors import ParamError
 from ..models.base import Model
+from ..interior import interior_checks
 from ..product import Product
 from ..reduce import checks_for
-from ..settings import MUTATE_QUICK_PATHS
+from ..settings import DEFAULT_INNER_POINTS, MUTATE_QUICK_PATHS
 from ..suite import DEFAULT_ALPHA, DEFAULT_PATHS, DEFAULT_SEED, run_check
 from ..verdict import Outcome, finalise
 from ..workers import Lost, open_pool
@@ -69,7 +70,7 @@ def _run_each(cls: type[Product], paths: int, s: dict, order: Sequence[int] | No
     try:
         with np.errstate(all="ignore"), warnings.catch_warnings():
             warnings.simplefilter("ignore")
-            checks = checks_for(cls, _REGISTRY.get("model"))
+            checks = _checks_of(cls, _REGISTRY.get("model"), s)
             raw = [None] * len(checks)
             seconds = [0.0] * len(checks)
             limit = s["alpha"] / max(1, len(checks))
@@ -84,6 +85,18 @@ def _run_each(cls: type[Product], paths: int, s: dict, order: Sequence[int] | No
         return raw, seconds, "", None
     except Exception as exc:  # the mutant broke the check machinery itself: a visible failure
         return raw, seconds, f"the check run raised {type(exc).__name__}: {exc}", None
+
+
+def _checks_of(cls: type[Product], model: Model | None, s: dict) -> list:
+    """The checks a mutant (or its original) is judged by: the declared ones, then the same
+    declarations at the run's interior points (:mod:`limitcase.interior`; a mutant keeps its
+    original's class name, so it is drawn the same points)."""
+    checks = checks_for(cls, model)
+    points = int(s.get("inner_points", DEFAULT_INNER_POINTS))
+    if points > 0:
+        broken = sorted({c.case for c in checks if c.error is not None})
+        checks += interior_checks(cls, model, seed=s["seed"], points=points, skip_cases=broken)
+    return checks
 
 
 def _judge(cls: type[Product], paths: int, s: dict, baseline: Sequence[str], order: Sequence[int] | None
@@ -202,6 +215,7 @@ def run_mutation(
     progress: Callable[[int, int], None] | None = None,
     time_limit: float | None = None,
     model: Model | None = None,
+    inner_points: int = DEFAULT_INNER_POINTS,
 ) -> MutationReport:
     """Mutate each product's payoff code, run its checks on every mutant, and score.
 
@@ -281,7 +295,7 @@ def run_mutation(
     settings = dict(paths=int(paths), quick_paths=int(quick_paths), equivalence_paths=int(equivalence_paths),
                     seed=int(seed), alpha=float(alpha), workers=workers, method=method,
                     operators=list(OPERATORS) if operators is None else list(operators),
-                    model=None if model is None else model.label())
+                    model=None if model is None else model.label(), inner_points=int(inner_points))
     _REGISTRY.clear()
     _REGISTRY.update(products=product_list, mutants=mutants, settings=settings, model=model)
     index_of = {cls: i for i, cls in enumerate(product_list)}
