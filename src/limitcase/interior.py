@@ -46,13 +46,14 @@ from .settings import (
     INNER_DRAWS,
     INNER_PATH_SHARE,
     INNER_SHRINK_BUDGET,
+    INNER_SHRINK_FAILURES,
     INNER_SHRINK_ROUNDS,
     INNER_WINDOW,
 )
 from .streams import ROLE_INNER_POINT, block_generator, case_key, coerce_seed
 
 __all__ = ["POINT_MARK", "draw_value", "draw_point", "interior_checks", "checks_at", "shrink", "still_fails",
-           "point_label"]
+           "point_label", "shrink_failures"]
 
 POINT_MARK = "@p"
 """Between a case's name and its interior point's number: ``barrier_to_infinity@p1``."""
@@ -278,3 +279,26 @@ def point_label(product: Product, defaults: Mapping[str, Any] | None = None) -> 
     parts = [f"{k}={v:.6g}" if isinstance(v, float) else f"{k}={v}"
              for k, v in product.params().items() if base.get(k, object()) != v]
     return ", ".join(parts) or "the defaults"
+
+
+def shrink_failures(checks: Sequence[Check], outcomes: Sequence[Any], run_one: Callable[[Check], Any], *,
+                    alpha: float, family: int) -> list[Any]:
+    """Each failing interior-point check of a run (the first :data:`INNER_SHRINK_FAILURES`)
+    shrunk toward the defaults (:func:`shrink`, re-running candidates with ``run_one``, on the
+    check's own streams); its outcome's message names the drawn point and the simplest
+    failing point found. ``family`` is the number of decisions Holm corrected over."""
+    out = list(outcomes)
+    todo = [i for i, (c, o) in enumerate(zip(checks, outcomes)) if c.origin is not None and o.verdict == "fail"]
+    for i in todo[:INNER_SHRINK_FAILURES]:
+        check = checks[i]
+        try:
+            simplest, spent = shrink(check, lambda c: still_fails(run_one(c), alpha, family))
+        except Exception as exc:  # the product's own code at a shrunk point: keep the drawn one
+            note = f"not shrunk ({type(exc).__name__}: {exc})"
+        else:
+            note = (f"simplest failing point found: {point_label(simplest)} "
+                    f"({spent} re-run{'s' if spent != 1 else ''} shrinking toward the defaults)")
+        o = out[i]
+        drawn = f"drawn point: {o.point or 'the defaults'}"
+        out[i] = dataclasses.replace(o, message=(o.message + "; " if o.message else "") + f"{drawn}; {note}")
+    return out

@@ -52,7 +52,6 @@ from .settings import (
     DEFAULT_PATHS,
     DEFAULT_REGRESSION_PATHS,
     DEFAULT_SEED,
-    INNER_SHRINK_FAILURES,
     MODEL_AUDIT,
     default_workers,
     validate_run,
@@ -440,36 +439,6 @@ def _outcome(it: _Item, seed: int, precision: Precision | None, alpha: float) ->
     return out
 
 
-def _shrink_failures(checks: Sequence[Check], outcomes: list[Outcome], *, paths: int, seed: int, alpha: float,
-                     method: str, regression_paths: int, family: int) -> list[Outcome]:
-    """Each failing interior-point check (the first :data:`INNER_SHRINK_FAILURES`) shrunk
-    toward the defaults (:func:`limitcase.interior.shrink`); its message names the simplest
-    failing point found. Re-runs use the check's own streams, in this process."""
-    from .interior import point_label, shrink, still_fails
-
-    out = list(outcomes)
-    todo = [i for i, (c, o) in enumerate(zip(checks, outcomes)) if c.origin is not None and o.verdict == "fail"]
-    for i in todo[:INNER_SHRINK_FAILURES]:
-        check = checks[i]
-
-        def fails(candidate: Check) -> bool:
-            return still_fails(run_check(candidate, paths=paths, seed=seed, method=method,
-                                         regression_paths=regression_paths), alpha, family)
-
-        try:
-            simplest, spent = shrink(check, fails)
-        except Exception as exc:  # the product's own code at a shrunk point: keep the drawn one
-            simplest, spent = check.origin.product, 0  # type: ignore[union-attr]
-            note = f"not shrunk ({type(exc).__name__}: {exc})"
-        else:
-            note = (f"simplest failing point found: {point_label(simplest)} "
-                    f"({spent} re-run{'s' if spent != 1 else ''} shrinking toward the defaults)")
-        o = out[i]
-        drawn = f"drawn point: {o.point or 'the defaults'}"
-        out[i] = replace(o, message=(o.message + "; " if o.message else "") + f"{drawn}; {note}")
-    return out
-
-
 # ----------------------------------------------------------------------------------------
 # public entry points
 
@@ -598,9 +567,13 @@ def run_checks(
         extra.update(precision=str(prec), max_paths=int(max_paths))
     final = finalise(outcomes + audits, alpha)
     done, audited = final[: len(outcomes)], final[len(outcomes):]
-    done = _shrink_failures(checks, done, paths=paths, seed=seed, alpha=alpha, method=method,
-                            regression_paths=regression_paths,
-                            family=sum(1 for o in final if o.p_value is not None and o.verdict not in ("error", "skip")))
+    if any(c.origin is not None for c in checks):
+        from .interior import shrink_failures
+
+        done = shrink_failures(checks, done, lambda c: run_check(c, paths=paths, seed=seed, method=method,
+                                                                 regression_paths=regression_paths),
+                               alpha=alpha, family=sum(1 for o in final if o.p_value is not None
+                                                       and o.verdict not in ("error", "skip")))
     if plans:
         done = mark_checks(done, plans, audited)
         extra["model_audits"] = {f"{a.product}/{a.case}": a.note for a in audited}
