@@ -74,3 +74,23 @@ def test_tie_declarations_are_checked_when_the_class_is_defined():
         class _Misspelt(Product):
             strike = Param(100.0, low=0.0)
             relations = (Tie("strik", "above"),)
+
+
+def test_the_under_checked_examples_strict_comparison_survivor_is_caught_once_its_tie_is_declared():
+    from pathlib import Path
+
+    from limitcase.loader import load_products
+
+    example = Path(__file__).resolve().parents[2] / "examples" / "under_checked.py"
+    (thin,) = load_products([str(example)])
+
+    declared = type("Declared", (thin,), {"relations": (Tie("barrier", "above"),), "__module__": __name__})
+
+    def payoff(self, obs):  # the surviving mutant: `<` -> `<=`
+        alive = np.all(obs.s <= self.barrier, axis=1)
+        vanilla = np.maximum(obs.s[:, -1] - self.strike, 0.0)
+        return np.where(alive, vanilla, self.rebate)
+
+    mutant = type("DeclaredMutant", (declared,), {"payoff": payoff, "__module__": __name__})
+    assert _tie(declared, "tie_at_barrier").direct()[0] is True
+    assert _tie(mutant, "tie_at_barrier").direct()[0] is False
