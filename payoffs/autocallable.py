@@ -43,6 +43,12 @@ from .vanilla import ZeroCouponBond
 SCENARIO = BlackScholes(spot=100.0, rate=0.03, dividend=0.02, vol=0.25)
 """An equity index: spot 100, rate 3%, dividend yield 2%, volatility 25% (invented)."""
 
+def _first_date(p) -> float:
+    """The first observation date from the terms (n equal steps to T), never from the product's
+    own ``dates()``: a wrong schedule must not move the reference with the payoff."""
+    return float(equal_steps(p.maturity, p.observations)[0])
+
+
 PINNED = {"spot": 1.0, "rate": SCENARIO.rate, "dividend": SCENARIO.rate, "vol": 0.0}
 """Model changes that hold the asset at its spot exactly on every date (no volatility, no
 drift; spot 1 so that exp(log S0) is S0 to the last bit): every fixing sits on a level of 1,
@@ -218,15 +224,15 @@ class Autocallable(_Note):
         _at_the_levels({"trigger": math.inf}),
         Reduction(
             "called_at_the_trigger",
-            {},
-            becomes=lambda p: ZeroCouponBond(cash=p.notional * (1.0 + p.coupon), maturity=p.dates()[0]),
+            {"trigger": 1.0},
+            becomes=lambda p: ZeroCouponBond(cash=p.notional * (1.0 + p.coupon), maturity=_first_date(p)),
             model_changes=PINNED,
             note="the asset pinned at the trigger: a fixing equal to it calls the note, N (1 + c) at t_1",
         ),
         Reduction(
             "called_on_first_date",
             {"trigger": 0.0},
-            becomes=lambda p: ZeroCouponBond(cash=p.notional * (1.0 + p.coupon), maturity=p.dates()[0]),
+            becomes=lambda p: ZeroCouponBond(cash=p.notional * (1.0 + p.coupon), maturity=_first_date(p)),
             note="trigger 0: called on the first date, N (1 + c) at t_1 on every path",
         ),
         Reduction(

@@ -40,7 +40,7 @@ import numpy as np
 import sympy as sp
 
 from limitcase.symbolic import formula_symbols
-from limitcase import BlackScholes, Bound, Cashflows, Identity, Monotone, Param, Product, Reduction
+from limitcase import BlackScholes, Bound, Cashflows, Identity, Monotone, Param, Product, Reduction, Tie
 from limitcase.errors import NoReference
 from limitcase.reduce import Check, Relation
 from limitcase.references import barrier_option, black_scholes
@@ -63,6 +63,12 @@ pays its rebate alone; the closed form is evaluated at the same strike, nothing 
 HAUG_SCENARIO = BlackScholes(spot=SPOT, rate=0.08, dividend=0.04, vol=0.25)
 """S = 100, r = 0.08, b = r - q = 0.04, sigma = 0.25: the setting of the standard barrier
 table in E. G. Haug, The Complete Guide to Option Pricing Formulas, 2nd ed., 2007, ch. 4."""
+
+
+def _TOUCHED(p) -> str:
+    """The tie convention of a barrier: a fixing exactly on it has touched it (above an up
+    barrier, below a down one)."""
+    return "above" if p.up else "below"
 
 
 def _kind(p: "_Barrier") -> str:
@@ -367,6 +373,7 @@ class _DiscreteOut(_Discrete):
             pathwise_leg=lambda p: _sibling(p, continuous=True),
             source="the continuous knock-out's closed form (a continuous barrier is touched whenever a discrete one is)",
         ),
+        Tie("barrier", _TOUCHED),
     )
 
 
@@ -386,6 +393,7 @@ class _DiscreteIn(_Discrete):
             pathwise_leg=lambda p: _sibling(p, continuous=True),
             source="the continuous knock-in's closed form (a continuous barrier is touched whenever a discrete one is)",
         ),
+        Tie("barrier", _TOUCHED),
     )
 
 

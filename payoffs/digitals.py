@@ -15,7 +15,7 @@ import numpy as np
 import sympy as sp
 
 from limitcase.symbolic import formula_symbols
-from limitcase import Bound, Identity, Monotone, Param, Product, Reduction
+from limitcase import Bound, Identity, Monotone, Param, Product, Reduction, Tie
 from limitcase.references import gap_option
 
 from ._common import BLACK_SCHOLES, bs_inputs, own_closed_form, terminal_method, terminal_price, terminal_source
@@ -73,6 +73,7 @@ class CashOrNothingCall(_Digital):
         Bound("below_bond", "<=", lambda p, m: _bond(p.cash, p).reference(m),
               pathwise_leg=lambda p: _bond(p.cash, p), source="C exp(-rT)"),
         Monotone("strike", -1, to=lambda p: p.strike + 10.0, pathwise=True),
+        Tie("strike", "below"),
     )
 
     def payoff(self, obs):
@@ -111,6 +112,7 @@ class CashOrNothingPut(_Digital):
                        (-1.0, _bond(p.cash, p))],
         ),
         Monotone("strike", +1, to=lambda p: p.strike + 10.0, pathwise=True),
+        Tie("strike", "above"),
     )
 
     def payoff(self, obs):
@@ -146,6 +148,7 @@ class AssetOrNothingCall(_Digital):
         ),
         Bound("below_prepaid_forward", "<=", lambda p, m: PrepaidForward(maturity=p.maturity).reference(m),
               pathwise_leg=lambda p: PrepaidForward(maturity=p.maturity), source="S0 exp(-qT)"),
+        Tie("strike", "below"),
     )
 
     def payoff(self, obs):
@@ -184,6 +187,7 @@ class AssetOrNothingPut(_Digital):
                        (-1.0, EuropeanPut(strike=p.strike, maturity=p.maturity))],
             note="K 1{S<K} - S 1{S<K} = max(K - S, 0) on every path",
         ),
+        Tie("strike", "above"),
     )
 
     def payoff(self, obs):
@@ -232,6 +236,7 @@ class GapCall(_Gap):
                        (-1.0, ForwardContract(strike=p.strike, maturity=p.maturity))],
             note="(S - K2) 1{S > K1} - (K2 - S) 1{S < K1} = S - K2 on every path",
         ),
+        Tie("trigger", "below"),
     )
 
     def payoff(self, obs):
@@ -271,6 +276,7 @@ class GapPut(_Gap):
             lambda p: [(1.0, p), (-1.0, CashOrNothingPut(strike=p.trigger, cash=p.strike, maturity=p.maturity)),
                        (1.0, AssetOrNothingPut(strike=p.trigger, maturity=p.maturity))],
         ),
+        Tie("trigger", "above"),
     )
 
     def payoff(self, obs):

@@ -40,7 +40,7 @@ from typing import ClassVar
 
 import numpy as np
 
-from limitcase import Bound, Identity, Monotone, Param, ParamError, Product, Reduction
+from limitcase import Bound, Identity, Monotone, Param, ParamError, Product, Reduction, Tie
 from limitcase.references import black_scholes, discrete_double_barrier_by_quadrature, double_barrier_option
 from limitcase.references.schedules import equal_steps
 
@@ -243,6 +243,7 @@ class _KnockOut(_DoubleBarrier):
         _IN_PLUS_OUT,
         _BELOW_VANILLA,
         _WIDER_WORTH_MORE,
+        Tie("lower", "below"), Tie("upper", "above"),
     )
 
 
@@ -260,6 +261,7 @@ class _KnockIn(_DoubleBarrier):
         _IN_PLUS_OUT,
         _BELOW_VANILLA,
         _WIDER_WORTH_LESS,
+        Tie("lower", "below"), Tie("upper", "above"),
     )
 
 

@@ -22,7 +22,7 @@ import math
 
 import numpy as np
 
-from limitcase import Bound, Identity, Monotone, Param, ParamError, Product, Reduction
+from limitcase import Bound, Identity, Monotone, Param, ParamError, Product, Reduction, Tie
 from limitcase.references import range_accrual
 from limitcase.references.schedules import equal_steps
 
@@ -97,6 +97,7 @@ class RangeAccrual(Product):
             pathwise_leg=_bond,
             source="C exp(-rT) (the accrued fraction is at most 1)",
         ),
+        Tie("lower", "above"), Tie("upper", "below"),
     )
 
     def _check(self) -> None:

@@ -31,7 +31,7 @@ import numpy as np
 
 from dataclasses import dataclass
 
-from limitcase import Cashflows, Identity, Monotone, Param, Product, Reduction
+from limitcase import Cashflows, Identity, Monotone, Param, Product, Reduction, Tie
 from limitcase.reduce import Check, Relation
 from limitcase.references import discrete_barrier_by_quadrature
 from limitcase.references.schedules import equal_steps
@@ -41,6 +41,12 @@ from .vanilla import ZeroCouponBond
 
 SPOT = 100.0
 """The spot of the scenario (the default Black-Scholes model); a barrier here is touched today."""
+
+
+def _TOUCHED(p) -> str:
+    """The tie convention of a barrier: a fixing exactly on it has touched it (above an up
+    barrier, below a down one)."""
+    return "above" if p.up else "below"
 
 
 def _out_of_reach(p: "_Touch") -> float:
@@ -150,6 +156,7 @@ class _OneTouch(_Touch):
             note="paid at T, exactly one of the one-touch and the no-touch pays C, on every path",
         ),
         MovingAway(),
+        Tie("barrier", _TOUCHED),
     )
 
     def payoff(self, obs):
@@ -193,6 +200,7 @@ class _NoTouch(_Touch):
             note="exactly one of the one-touch (paid at T) and the no-touch pays C, on every path",
         ),
         MovingAway(),
+        Tie("barrier", _TOUCHED),
     )
 
     def payoff(self, obs):

@@ -31,7 +31,7 @@ from typing import ClassVar
 
 import numpy as np
 
-from limitcase import Bound, Identity, Monotone, Param, ParamError, Product, Reduction
+from limitcase import Bound, Identity, Monotone, Param, ParamError, Product, Reduction, Tie
 from limitcase.references import black_scholes, discrete_barrier_by_quadrature
 from limitcase.references.schedules import equal_steps
 
@@ -50,6 +50,12 @@ EPS = 1e-12
 
 _FULL = {(True, True): UpAndOutCall, (True, False): UpAndInCall,
          (False, True): DownAndOutPut, (False, False): DownAndInPut}
+
+
+def _TOUCHED(p) -> str:
+    """The tie convention of a barrier: a fixing exactly on it has touched it (above an up
+    barrier, below a down one)."""
+    return "above" if p.up else "below"
 
 
 def _vanilla(p: "_Window") -> Product:
@@ -167,9 +173,11 @@ _CLOSED_FORMS = (
 def _empty_window(value):
     return Reduction(
         "empty_window",
-        {"window_start": 0.3, "window_end": 0.32, "rebate": REBATE},
+        {"window_start": lambda p: 0.3 * p.maturity / p.monitoring,
+         "window_end": lambda p: 0.6 * p.maturity / p.monitoring, "rebate": REBATE},
         becomes=value,
-        note="[0.30, 0.32] holds none of the dates k/12: the barrier is never watched",
+        note="a window inside the first monitoring interval, [0.3, 0.6] T/n, holds no date: the barrier is never "
+             "watched",
     )
 
 
@@ -205,6 +213,7 @@ class _WindowOut(_Window):
         _IN_PLUS_OUT,
         _BELOW_VANILLA,
         Monotone("window_end", -1, to=lambda p: p.maturity, pathwise=True, name="worth_less_as_window_closes_later"),
+        Tie("barrier", _TOUCHED),
     )
 
 
@@ -217,6 +226,7 @@ class _WindowIn(_Window):
         _IN_PLUS_OUT,
         _BELOW_VANILLA,
         Monotone("window_end", +1, to=lambda p: p.maturity, pathwise=True, name="worth_more_as_window_closes_later"),
+        Tie("barrier", _TOUCHED),
     )
 
 

@@ -12,6 +12,7 @@ from .params import Param
 from .product import Cashflows, Observed, Product
 from .reduce import Bound, Check, Convex, Identity, Monotone, Reduction, Relation, checks_for
 from .suite import RunResult, run_checks
+from .ties import Tie
 
 __all__ = [
     "BLOCK",
@@ -41,6 +42,7 @@ __all__ = [
     "Relation",
     "RunResult",
     "checks_for",
+    "Tie",
     "evaluate",
     "price",
     "run_checks",

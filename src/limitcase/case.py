@@ -68,13 +68,16 @@ class Setup:
 
 @dataclass(frozen=True)
 class BlockResult:
-    """One block's summary: its statistics for the sampler's accumulator, and, per path
-    rule, ``(violations, worst residual, worst path)``."""
+    """One block's summary: its statistics for the sampler's accumulator, per path rule
+    ``(violations, worst residual, worst path)``, and per leg the number of paths on which it
+    pays something (the statistical comparison's validity rule reads them:
+    :func:`limitcase.verdict.normal_approximation`)."""
 
     block: int
     size: int
     summary: Any
     rules: tuple[tuple[int, float, int], ...]
+    paying: tuple[int, ...] = ()
 
 
 class Case:
@@ -230,7 +233,8 @@ class Case:
                 res = [PathRuleResult(rule) for rule in self.rules]
                 _check_rules(res, x[:, : self.n_legs], b * BLOCK)
                 tallies = tuple((r.violations, r.worst, r.worst_path) for r in res)
-            out.append(BlockResult(b, size, self.sampler.summarise(x, b), tallies))
+            paying = tuple(int(c) for c in np.count_nonzero(x[:, : self.n_legs], axis=0))
+            out.append(BlockResult(b, size, self.sampler.summarise(x, b), tallies, paying))
         return out
 
     def accumulator(self) -> "Accumulator":
@@ -246,6 +250,7 @@ class Accumulator:
         self.rules = [PathRuleResult(rule) for rule in case.rules]
         self.next_block = 0
         self.paths = 0
+        self.paying = [0] * case.n_legs
 
     def add(self, result: BlockResult) -> None:
         if result.block != self.next_block:
@@ -253,6 +258,8 @@ class Accumulator:
         self.stats.add(result.summary)
         for r, (v, worst, where) in zip(self.rules, result.rules):
             r.merge(v, worst, where)
+        for i, c in enumerate(result.paying):
+            self.paying[i] += c
         self.next_block += 1
         self.paths += result.size
 
@@ -270,9 +277,10 @@ class Accumulator:
                 control_exact=np.array([v for _, v in self.case.controls]),
                 full_cov=full, pilot_cov=setup.pilot_cov, notes=self.case.notes,
                 control_min_r2=SOBOL_CONTROL_R2 if self.case.sampler.method == "sobol" else 0.0,
+                paying=tuple(self.paying),
             )
         return Joint(paths=m.paths, mean=m.mean, cov=full, rules=rules, method=self.case.method,
-                     dof=m.dof, notes=self.case.notes)
+                     dof=m.dof, notes=self.case.notes, paying=tuple(self.paying))
 
 
 def case_bytes(dates: int, k: int, assets: int, paths: int) -> int:

@@ -9,13 +9,13 @@ makes them, the engine and the suite read them, and neither needs the other to d
 from __future__ import annotations
 
 from dataclasses import dataclass
-from typing import TYPE_CHECKING
+from typing import TYPE_CHECKING, Callable
 
 if TYPE_CHECKING:  # pragma: no cover
     from .models.base import Model
     from .product import Product
 
-__all__ = ["Check", "PathRule", "PathRuleResult", "SENSES"]
+__all__ = ["Check", "PathRule", "PathRuleResult", "SENSES", "Origin"]
 
 SENSES = ("==", ">=", "<=")
 """How a statistic is compared with its target (and a path rule with zero)."""
@@ -49,6 +49,20 @@ class PathRuleResult:
 
 
 @dataclass(frozen=True)
+class Origin:
+    """Where an interior-point check came from (:mod:`limitcase.interior`): the product at
+    the drawn point, the model its declarations were applied under, the declaration's case
+    name at the defaults and the point's number (the ``@pN`` of the case name). The runner
+    rebuilds the check at simpler points from it when it fails (shrinking)."""
+
+    product: "Product"
+    model: "Model"
+    base_case: str
+    index: int
+    drawn: tuple[tuple[str, float], ...] = ()
+
+
+@dataclass(frozen=True)
 class Check:
     """One thing to verify by Monte Carlo: legs priced on common paths, path rules that
     must hold on every path, and a statistic ``sum(weights * prices)`` compared with
@@ -58,7 +72,13 @@ class Check:
     as an error for that check only. A check whose target does not exist under its model (the
     base product has no reference there: :class:`~limitcase.errors.NoReference`) carries
     ``skip``, the reason: the runner reports it as a skip, never priced, never a pass, and
-    outside Holm's family (the parts that need no reference are checks of their own)."""
+    outside Holm's family (the parts that need no reference are checks of their own).
+
+    ``origin`` marks a check at an interior parameter point (:mod:`limitcase.interior`);
+    ``path_share`` is the share of the run's paths it is priced with (sized from the power it
+    needs, :data:`limitcase.settings.INNER_PATH_SHARE`). ``direct``, when given, decides the
+    check without Monte Carlo (a deterministic check on given paths, :mod:`limitcase.ties`):
+    it returns ``(ok, message, paths)``, ``ok`` None for nothing to decide (a skip)."""
 
     product: str
     case: str
@@ -75,6 +95,9 @@ class Check:
     note: str = ""
     error: str | None = None
     skip: str | None = None
+    origin: Origin | None = None
+    path_share: float = 1.0
+    direct: "Callable[[], tuple[bool | None, str, int]] | None" = None
 
     @property
     def label(self) -> str:

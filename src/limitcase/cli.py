@@ -27,6 +27,7 @@ from .cli_support import (
     write_outputs,
 )
 from .settings import (
+    DEFAULT_INNER_POINTS,
     DEFAULT_MAX_PATHS,
     DEFAULT_METHOD,
     DEFAULT_REGRESSION_PATHS,
@@ -67,6 +68,9 @@ def main() -> None:
               help="Run every product under this model instead of its scenario: a shipped name with "
                    "overrides (heston:kappa=2,theta=0.04) or a file (my_model.py, my_model.py:Class:vol=0.3). "
                    "Products with another asset count are skipped.")
+@click.option("--inner-points", type=click.IntRange(min=0), default=DEFAULT_INNER_POINTS, show_default=True,
+              help="Interior parameter points at which every reduction and relation also runs, drawn "
+                   "reproducibly from the seed inside the declared ranges (cases named CASE@p1, ...); 0: none.")
 @click.option("--allow-long-run", is_flag=True,
               help="Run even when the estimated time is above the refusal limit (a week; see "
                    "limitcase.settings.RUN_REFUSE_SECONDS). Above an hour a warning gives the estimate.")
@@ -75,7 +79,8 @@ def main() -> None:
 def check(paths_in: tuple[str, ...], paths: int, seed: int, alpha: float, json_path: str | None,
           junit_path: str | None, debug: bool, selects: tuple[str, ...], regression_paths: int | None,
           method: str, precision: str | None, max_paths: int, workers: int | None,
-          model_spec: str | None = None, allow_long_run: bool = False) -> None:
+          model_spec: str | None = None, allow_long_run: bool = False,
+          inner_points: int = DEFAULT_INNER_POINTS) -> None:
     """Run every declared reduction and relation of the products in PATH (files or
     folders of .py files; default: the shipped catalogue)."""
     import time
@@ -95,7 +100,7 @@ def check(paths_in: tuple[str, ...], paths: int, seed: int, alpha: float, json_p
     products = load_products(paths_in, failures=failures)
     if not products and not failures:
         raise InputFailure(f"no Product classes found in {', '.join(paths_in) or 'the catalogue'}")
-    planned, skipped = plan_checks(products, model, failures)
+    planned, skipped = plan_checks(products, model, failures, inner_points=inner_points, seed=seed)
     for s in skipped:
         click.echo(f"skipped {s.product}: {s.reason}")
     # a file that did not import is reported whatever --select says: nothing is lost
@@ -132,7 +137,7 @@ def check(paths_in: tuple[str, ...], paths: int, seed: int, alpha: float, json_p
     click.echo("")
     # seed and paths are appended per failing check by the renderers
     reproduce = reproduce_command("check", paths_in, seed=None, paths=None, method=method, precision=precision,
-                                  max_paths=max_paths, alpha=alpha, model=model_spec)
+                                  max_paths=max_paths, alpha=alpha, model=model_spec, inner_points=inner_points)
     click.echo(render_summary(result, reproduce=reproduce))
     used = result.extra.get("processes", 1)
     click.echo(f"{result.extra['wall_seconds']:.1f} s on " + ("1 process" if used == 1 else f"{used} worker processes"))

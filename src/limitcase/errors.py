@@ -12,6 +12,7 @@ __all__ = [
     "InputError",
     "NoReference",
     "PayoffError",
+    "NegativeAmount",
     "ModelError",
     "DeclarationError",
 ]
@@ -35,6 +36,11 @@ class NoReference(LimitcaseError, LookupError):
 
 class PayoffError(LimitcaseError, RuntimeError):
     """A product's payoff code raised, returned NaN, or returned the wrong shape."""
+
+
+class NegativeAmount(PayoffError):
+    """A product declared non-negative (``nonnegative = True``, an option) paid a negative
+    amount: a broken payoff, reported as a failing check (it is evidence, not a crash)."""
 
 
 class ModelError(LimitcaseError, ValueError):

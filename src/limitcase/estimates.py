@@ -80,6 +80,7 @@ class Joint:
     pilot_cov: np.ndarray | None = None  # legs + controls, per path, on the pilot
     notes: tuple[str, ...] = ()
     control_min_r2: float = 0.0
+    paying: tuple[int, ...] = ()  # per leg, the paths on which it pays something (empty: not counted)
 
     control_max_r2: float = TAUTOLOGY_R2
 

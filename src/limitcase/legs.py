@@ -15,16 +15,32 @@ from typing import Any, Callable, Sequence
 
 import numpy as np
 
-from .errors import ParamError, PayoffError
+from .errors import NegativeAmount, ParamError, PayoffError
 from .models.base import Model, Simulated
 from .product import Cashflows, Observed, Product
 
 __all__ = ["Leg", "present_values", "grid_of", "as_amounts"]
 
 
+DATE_TOL = 1e-12
+"""Dates of two products closer than this (in years, about 30 microseconds) are one date of
+the common grid: the same date computed two ways (``start + k (T - start) / n`` against
+``T``) differs in the last bits, and two grid points 2e-16 apart would put a step of that
+length between them, on which the simulated asset moves by a few 1e-7 (an identity of the
+two products then breaks on half the paths at a non-round maturity)."""
+
+
 def grid_of(products: Sequence[Product]) -> np.ndarray:
-    """The union of the products' observation dates."""
-    return np.unique(np.concatenate([p.validated_dates() for p in products]))
+    """The union of the products' observation dates, dates within :data:`DATE_TOL` merged
+    (the first kept)."""
+    dates = np.unique(np.concatenate([p.validated_dates() for p in products]))
+    if dates.size < 2:
+        return dates
+    keep = [0]
+    for i in range(1, dates.size):
+        if dates[i] - dates[keep[-1]] > DATE_TOL:
+            keep.append(i)
+    return dates[keep] if len(keep) < dates.size else dates
 
 
 def as_amounts(value: Any, what: str, n: int, *, integers: bool = False) -> np.ndarray:
@@ -96,7 +112,7 @@ class Leg:
         self.product = product
         self.name = type(product).__name__
         self.dates = product.validated_dates()
-        self.idx = np.searchsorted(grid, self.dates)
+        self.idx = np.searchsorted(grid, self.dates - DATE_TOL)  # the grid date within DATE_TOL
         n = len(self.idx)
         full = n == len(grid)
         contiguous = n > 0 and np.all(np.diff(self.idx) == 1)
@@ -188,9 +204,10 @@ def present_values(leg: Leg, obs: Observed, rate: float, policy: Any) -> np.ndar
         )
     if leg.product.nonnegative and amount.min(initial=0.0) < -1e-12:
         rows = np.flatnonzero((amount < -1e-12).reshape(n, -1).any(axis=1))
-        raise PayoffError(
-            f"{name} pays a negative amount ({amount.min():.6g}) on {rows.size} of {n} paths; "
-            "an option cannot (set nonnegative = False on products that can)"
+        raise NegativeAmount(
+            f"{name} pays a negative amount ({amount.min():.6g}) on {rows.size} of {n} paths (first at path "
+            f"{rows[0]} of its block) although it is declared non-negative; an option cannot "
+            "(set nonnegative = False on products that can)"
         )
     pv = amount * disc
     return pv if pv.ndim == 1 else pv.sum(axis=1)

@@ -15,6 +15,7 @@ from .loader import LoadFailure, qualified_names
 from .models.base import Model
 from .product import Product
 from .reduce import Check, checks_for
+from .settings import DEFAULT_SEED
 
 __all__ = ["Skipped", "plan_checks", "model_fits"]
 
@@ -37,8 +38,13 @@ def model_fits(product: Product, model: Model) -> str | None:
 
 
 def plan_checks(classes: Sequence[type[Product]], model: Model | None = None,
-                failures: Sequence[LoadFailure] = ()) -> tuple[list[Check], list[Skipped]]:
+                failures: Sequence[LoadFailure] = (), *, inner_points: int = 0,
+                seed: int = DEFAULT_SEED) -> tuple[list[Check], list[Skipped]]:
     """The checks of ``classes`` (each under its own scenario, or all under ``model``).
+
+    With ``inner_points`` > 0, each declaration also runs at that many interior parameter
+    points drawn from ``seed`` (:mod:`limitcase.interior`), listed after the product's checks
+    at the defaults.
 
     A product whose asset count differs from ``model``'s is skipped with the reason; a file
     that did not import becomes an error check of kind ``"load"`` named after the file; two
@@ -66,6 +72,17 @@ def plan_checks(classes: Sequence[type[Product]], model: Model | None = None,
         except Exception as exc:
             found = [Check(product=cls.__name__, case="defaults", kind="reduction",
                            error=f"{cls.__name__}'s checks cannot be built: {type(exc).__name__}: {exc}")]
+        if inner_points > 0:
+            from .interior import interior_checks
+
+            broken = {c.case for c in found if c.error is not None}
+            try:
+                found = found + interior_checks(cls, model, seed=seed, points=inner_points, name=name,
+                                                skip_cases=sorted(broken))
+            except Exception as exc:  # the product's own code: its interior points are an error of their own
+                found = found + [Check(product=cls.__name__, case="interior", kind="reduction",
+                                       error=f"{cls.__name__}'s interior points cannot be drawn: "
+                                             f"{type(exc).__name__}: {exc}")]
         if name != cls.__name__:
             found = [dataclasses.replace(c, product=name) for c in found]
         checks.extend(found)

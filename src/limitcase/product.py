@@ -116,8 +116,8 @@ class Product(Parametrised):
         True when the payoff reads several underlyings; then ``n_assets`` (an attribute or a
         property) says how many, and ``obs.s`` has an asset axis.
     ``nonnegative``
-        Whether every cash flow must be >= 0 (an option). The engine reports a product
-        that pays a negative amount where none can be as an error.
+        Whether every cash flow must be >= 0 (an option). A product declared so that pays a
+        negative amount fails the check that priced it (:class:`~limitcase.errors.NegativeAmount`).
     ``abstract``
         True on a shared base that ``check`` must not collect.
     ``reductions`` / ``relations``

@@ -38,11 +38,14 @@ __all__ = [
     "Bound",
     "Check",
     "checks_for",
+    "declaration_checks",
+    "declaration_name",
     "limit_product",
     "reduction_check",
     "reduction_checks",
     "LEGS_SUFFIX",
     "PathRule",
+    "require_param",
 ]
 
 Value = Any  # a number, or a callable of the product giving one
@@ -67,6 +70,10 @@ def _require_param(cls: type, what: str, name: Any, verb: str = "names") -> None
         raise DeclarationError(
             f"{cls.__name__}: {what} {verb} {name!r}, which is not a parameter{_suggest(name, known)}"
         )
+
+
+require_param = _require_param
+"""For relations declared in other modules (:class:`limitcase.ties.Tie`)."""
 
 
 def _param_value(product: Product, what: str, name: str) -> Any:
@@ -521,26 +528,33 @@ def checks_for(product: Product | type[Product], model: Model | None = None) -> 
     if isinstance(product, type):
         product = product()
     model = product.scenario() if model is None else model
-    out = [c for red in type(product).reductions for c in reduction_checks(product, model, red)]
-    name = type(product).__name__
-    for rel in type(product).relations:
-        try:
-            out.extend(rel.checks(product, model))
-        except NoReference as exc:
-            out.append(Check(product=name, case=_relation_name(rel), kind="relation", model=model,
-                             skip=f"no reference for the relation under {type(model).__name__}: {exc}"))
-        except DeclarationError as exc:
-            out.append(Check(product=name, case=_relation_name(rel), kind="relation", error=str(exc)))
-        except Exception as exc:
-            out.append(
-                Check(
-                    product=name,
-                    case=_relation_name(rel),
-                    kind="relation",
-                    error=f"the relation's declaration raised {type(exc).__name__}: {exc}",
-                )
-            )
+    out: list[Check] = []
+    for decl in (*type(product).reductions, *type(product).relations):
+        out.extend(declaration_checks(product, model, decl))
     return out
+
+
+def declaration_checks(product: Product, model: Model, decl: "Reduction | Relation") -> list[Check]:
+    """The checks of one declaration (a :class:`Reduction` or a relation) of ``product``
+    under ``model``: a declaration whose code raises is an error record for its case only."""
+    if isinstance(decl, Reduction):
+        return reduction_checks(product, model, decl)
+    name = type(product).__name__
+    try:
+        return list(decl.checks(product, model))
+    except NoReference as exc:
+        return [Check(product=name, case=_relation_name(decl), kind="relation", model=model,
+                      skip=f"no reference for the relation under {type(model).__name__}: {exc}")]
+    except DeclarationError as exc:
+        return [Check(product=name, case=_relation_name(decl), kind="relation", error=str(exc))]
+    except Exception as exc:
+        return [Check(product=name, case=_relation_name(decl), kind="relation",
+                      error=f"the relation's declaration raised {type(exc).__name__}: {exc}")]
+
+
+def declaration_name(decl: Any) -> str:
+    """The case name a declaration's check carries at the defaults."""
+    return decl.name if isinstance(decl, Reduction) else _relation_name(decl)
 
 
 def _relation_name(rel: Any) -> str:

@@ -51,6 +51,15 @@ __all__ = [
     "REPRICE_LOCALVOL_STEPS_PER_YEAR",
     "REPRICE_TOLERANCE_VOL",
     "METHODS",
+    "DEFAULT_INNER_POINTS",
+    "INNER_WINDOW",
+    "INNER_DRAWS",
+    "INNER_PATH_SHARE",
+    "INNER_SHRINK_ROUNDS",
+    "INNER_SHRINK_BUDGET",
+    "INNER_SHRINK_FAILURES",
+    "CLT_MIN_PAYING",
+    "REFERENCE_ACCURACY",
     "MAX_CASE_BYTES",
     "CASE_WORDS_PER_DATE",
     "RUN_WARN_SECONDS",
@@ -177,6 +186,52 @@ REPRICE_TOLERANCE_VOL = 0.5
 """Declared tolerance (implied-volatility points) of a quote without bid-ask (``reprice --tolerance``)."""
 
 
+DEFAULT_INNER_POINTS = 1
+"""Interior parameter points at which every declared reduction and relation also runs
+(``check --inner-points``; 0 turns them off): see :mod:`limitcase.interior`."""
+
+INNER_WINDOW = 0.2
+"""Half-width of the window an interior point is drawn from, relative to the parameter's
+default (a strike of 100 is drawn in about (80, 120), clipped inside the declared range):
+far enough from the default to run code the defaults never run (a non-integer number, a
+fraction of a period), near enough that the product stays the same kind of contract (a
+barrier on the same side of the spot, comparable prices)."""
+
+INNER_DRAWS = 20
+"""Draws tried for one interior point before giving up: a draw that breaks the product's
+constraints (a lower barrier above the upper one) or makes its declaration unbuildable is
+drawn again; after this many the point is reported as a skip, with the last reason."""
+
+INNER_PATH_SHARE = 0.25
+"""Share of the run's paths an interior-point check is priced with. The interior points look
+for code that is wrong away from special values, where a bug moves the price by a visible
+amount (a truncated number of fixings, a strict comparison): a quarter of the paths doubles
+the detectable bias, and keeps the default run of the catalogue within its minute on two
+cores. Measured on the catalogue (605 interior checks, CPU seconds of a shared two-core
+machine, the model audits included): 55 s at half the paths, 42 s at a quarter; the rest is
+each check's fixed cost (pilots, grids), which fewer paths do not remove."""
+
+INNER_SHRINK_ROUNDS = 3
+"""Rounds of shrinking a failing interior point toward the defaults (each round halves the
+distance of each parameter in turn, kept where the check still fails)."""
+
+INNER_SHRINK_BUDGET = 12
+"""The most checks re-run to shrink one failing interior point."""
+
+INNER_SHRINK_FAILURES = 8
+"""The most failing interior points of one run that are shrunk (the rest report the point as
+drawn): a broken product failing everywhere does not cost the run more than this."""
+
+CLT_MIN_PAYING = 1000.0
+"""The validity rule of a statistical comparison at an interior point: the smallest
+``n q (1 - q) / (1 - 2q)^2`` (``q`` the share of the ``n`` paths on which a leg pays) for the
+normal approximation of the mean to be trusted (:func:`limitcase.verdict.normal_approximation`)."""
+
+REFERENCE_ACCURACY = 1e-9
+"""The absolute accuracy a reference price is taken to have, relative to the contract's scale
+(the larger of ``|reference|`` and the model's initial spot): see
+:func:`limitcase.verdict.reference_accuracy`."""
+
 MAX_CASE_BYTES = 2 << 30
 """The most memory one check's simulation may need at once (one block of paths, or the
 Longstaff-Schwartz pilot, whichever is larger). A product whose dates would need more is an
@@ -279,6 +334,7 @@ def reproduce_command(
     max_paths: int | None = None,
     model: str | None = None,
     alpha: float | None = None,
+    inner_points: int | None = None,
 ) -> str:
     """The command line that reproduces a run (or, with ``select``, one of its checks).
 
@@ -298,6 +354,8 @@ def reproduce_command(
         parts += ["--alpha", f"{float(alpha):g}"]
     if method is not None and method != DEFAULT_METHOD:
         parts += ["--method", str(method)]
+    if inner_points is not None and int(inner_points) != DEFAULT_INNER_POINTS:
+        parts += ["--inner-points", str(int(inner_points))]
     if precision is not None:
         parts += ["--precision", shlex.quote(str(precision))]
         if max_paths is not None:

@@ -15,7 +15,10 @@ Roles (the middle word of a block stream's spawn key):
 :data:`ROLE_PILOT_UNIFORMS` (2)
     the uniforms the regression pilot's products may read;
 :data:`ROLE_CONTROL_PILOT` (3)
-    the paths on which control-variate coefficients are estimated.
+    the paths on which control-variate coefficients are estimated;
+:data:`ROLE_INNER_POINT` (4)
+    the draws of a case's interior parameter points (:mod:`limitcase.interior`; the third
+    word is the point's number, not a block).
 
 The Sobol scrambles (:mod:`limitcase.sampling`) have spawn keys of four words starting with
 :data:`SOBOL_TAG`, never equal to a block stream's three.
@@ -37,6 +40,7 @@ __all__ = [
     "ROLE_PATHS",
     "ROLE_PILOT_UNIFORMS",
     "ROLE_CONTROL_PILOT",
+    "ROLE_INNER_POINT",
     "SOBOL_TAG",
     "coerce_seed",
     "case_key",
@@ -55,6 +59,8 @@ ROLE_PILOT_UNIFORMS = 2
 """Stream role of the uniforms read on the Longstaff-Schwartz pilot."""
 ROLE_CONTROL_PILOT = 3
 """Stream role of the control-variate pilot paths."""
+ROLE_INNER_POINT = 4
+"""Stream role of the draws of interior parameter points."""
 
 SOBOL_TAG = 0x50B0
 """First word of the Sobol scrambles' spawn keys (four words long: never a block stream's three)."""

@@ -42,7 +42,7 @@ from typing import Any, Callable, Sequence
 from .case import BlockResult, Case, Setup
 from .checks import Check
 from .controls import gather_controls
-from .errors import LimitcaseError, ParamError
+from .errors import LimitcaseError, NegativeAmount, ParamError
 from .modelaudit import mark_checks, plan_model_audits, run_model_audits
 from .sampling import parse_method
 from .settings import (
@@ -138,6 +138,7 @@ class _Item:
     error: str | None = None
     status: str = ""
     done: bool = False
+    direct: Outcome | None = None
 
 
 class _Run:
@@ -187,9 +188,17 @@ def _task_blocks(args: tuple[int, int, Setup, int, int, int]) -> tuple[int, list
         return i, None, _error_text(exc)
 
 
+FAILED = "failed: "
+"""Prefix of a check's error text that is a failure, not an error: a product declared
+non-negative that pays a negative amount (:class:`~limitcase.errors.NegativeAmount`)."""
+
+
 def _error_text(exc: BaseException) -> str:
     """The message of a check's error: ours as they are; anything else (raised by the product's
-    own code where no boundary wrapped it) with its type and the line it came from."""
+    own code where no boundary wrapped it) with its type and the line it came from. A negative
+    amount of a non-negative product is a failure: its text starts with :data:`FAILED`."""
+    if isinstance(exc, NegativeAmount):
+        return FAILED + str(exc)
     if isinstance(exc, LimitcaseError):
         return str(exc)
     import traceback
@@ -204,6 +213,12 @@ def _executor(workers: int, tasks_hint: int) -> InlinePool | ForkedPool:
     checks, their products and cases), a Dask cluster is sent it; one process where
     forking is not possible."""
     return open_pool(workers, tasks_hint, stacklevel=4, inherit=((__name__, "_RUN"),))
+
+
+def _share(paths: int, check: Check) -> int:
+    """The paths a check is priced with: its share of the run's (an interior point's is
+    smaller, :data:`limitcase.settings.INNER_PATH_SHARE`), at least two."""
+    return max(2, int(round(int(paths) * float(check.path_share))))
 
 
 def _split(first: int, last: int, per_task: int) -> list[tuple[int, int]]:
@@ -244,13 +259,17 @@ def _execute(
             item.error = item.check.error
             finish(item)
             continue
+        if item.check.direct is not None:
+            item.direct = direct_outcome(item.check, seed)
+            finish(item)
+            continue
         try:
             item.case = _case_for(item.check, seed, method, regression_paths)
         except Exception as exc:  # the product's own code too: an error for this check only
             item.error = _error_text(exc)
             finish(item)
             continue
-        first = int(paths)
+        first = _share(paths, item.check)
         if precision is not None:
             first = max(first, 2)
             first = -(-first // BLOCK) * BLOCK  # whole blocks, so later rounds extend them
@@ -361,12 +380,41 @@ def _next_round(it: _Item, precision: Precision, alpha: float, m: int, max_paths
     it.paths = n
 
 
+def negative_outcome(check: Check, message: str, seed: int, paths: int = 0) -> Outcome:
+    """A product declared non-negative paid a negative amount: the check fails outright
+    (p = 0, like a broken path-by-path identity), with the message naming the product."""
+    return Outcome(product=check.product, case=check.case, kind=check.kind, verdict="pass", p_value=0.0,
+                   pathwise_ok=False, message=message, paths=paths, seed=seed, note=check.note,
+                   target_source=check.target_source, legs=tuple(p.label() for p in check.legs))
+
+
+def direct_outcome(check: Check, seed: int) -> Outcome:
+    """The outcome of a check decided without Monte Carlo (``check.direct``): a pass or an
+    outright failure (p = 0, like a broken path-by-path identity), or a skip when nothing
+    decides; an exception of the product's code is an error for this check only."""
+    assert check.direct is not None
+    base = dict(product=check.product, case=check.case, kind=check.kind, seed=seed, note=check.note,
+                target_source=check.target_source, legs=tuple(p.label() for p in check.legs))
+    try:
+        ok, message, n = check.direct()
+    except Exception as exc:  # the product's own code on the given paths
+        return Outcome(verdict="error", message=_error_text(exc), **base)
+    if ok is None:
+        return Outcome(verdict="skip", message=message, paths=n, **base)
+    return Outcome(verdict="pass", message=message, paths=n, p_value=1.0 if ok else 0.0, pathwise_ok=bool(ok),
+                   difference=0.0 if ok else None, **base)
+
+
 def _outcome(it: _Item, seed: int, precision: Precision | None, alpha: float) -> Outcome:
     check = it.check
+    if it.direct is not None:
+        return it.direct
     base = dict(product=check.product, case=check.case, kind=check.kind, paths=it.acc.paths if it.acc else 0,
                 seed=seed, note=check.note)
     if check.error is None and check.skip is not None:
         return skip_outcome(check, seed)
+    if it.error is not None and it.error.startswith(FAILED):
+        return negative_outcome(check, it.error[len(FAILED):], seed, base["paths"])
     if it.error is not None:
         legs = tuple(p.label() for p in check.legs) if it.case is not None else ()
         method = it.case.method if it.case is not None else "plain"
@@ -418,13 +466,15 @@ def run_check(
     prec = parse_precision(precision) if precision is not None else None
     if check.error is None and check.skip is not None:
         return skip_outcome(check, seed)
+    if check.error is None and check.direct is not None:
+        return direct_outcome(check, seed)
     if prec is None and check.error is None:
         base = dict(product=check.product, case=check.case, kind=check.kind, paths=paths, seed=seed,
                     note=check.note)
         try:
             case = _case_for(check, seed, method, regression_paths)
             setup = case.setup()
-            n = case.round_paths(paths)
+            n = case.round_paths(_share(paths, check))
             acc = case.accumulator()
             buf = case.buffer(min(BLOCK, n))
             for b in range(Case.blocks_for(n)):
@@ -433,6 +483,8 @@ def run_check(
                 if on_batch is not None:
                     on_batch(acc.paths)
             joint = acc.joint(setup)
+        except NegativeAmount as exc:  # a failure of the check, not an error
+            return negative_outcome(check, str(exc), seed, paths)
         except Exception as exc:  # the product's own code too: an error for this check only
             return Outcome(verdict="error", message=_error_text(exc), legs=tuple(p.label() for p in check.legs),
                            **base)
@@ -515,6 +567,13 @@ def run_checks(
         extra.update(precision=str(prec), max_paths=int(max_paths))
     final = finalise(outcomes + audits, alpha)
     done, audited = final[: len(outcomes)], final[len(outcomes):]
+    if any(c.origin is not None for c in checks):
+        from .interior import shrink_failures
+
+        done = shrink_failures(checks, done, lambda c: run_check(c, paths=paths, seed=seed, method=method,
+                                                                 regression_paths=regression_paths),
+                               alpha=alpha, family=sum(1 for o in final if o.p_value is not None
+                                                       and o.verdict not in ("error", "skip")))
     if plans:
         done = mark_checks(done, plans, audited)
         extra["model_audits"] = {f"{a.product}/{a.case}": a.note for a in audited}

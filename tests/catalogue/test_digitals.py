@@ -220,6 +220,12 @@ BROKEN = [
     (GapPutLevelsSwapped, "closed_form"),
     (GapPutInclusive, "ends_at_the_trigger"),
     (GapPutLevelsSwapped, "cash_minus_asset_digitals"),
+    (CashCallInclusive, "tie_at_strike"),
+    (CashPutInclusive, "tie_at_strike"),
+    (AssetCallInclusive, "tie_at_strike"),
+    (AssetPutInclusive, "tie_at_strike"),
+    (GapCallInclusive, "tie_at_trigger"),
+    (GapPutInclusive, "tie_at_trigger"),
 ]
 
 

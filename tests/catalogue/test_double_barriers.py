@@ -105,8 +105,16 @@ def upper_inclusive(self, obs):
     return _settle(self, np.all((s > self.lower) & (s <= self.upper), axis=1), _vanilla(self, obs.s[:, -1]))
 
 
+def lower_inclusive(self, obs):
+    """Treats S = L as inside the corridor (S >= L instead of S > L)."""
+    s = _path(obs)
+    return _settle(self, np.all((s >= self.lower) & (s < self.upper), axis=1), _vanilla(self, obs.s[:, -1]))
+
+
 BUGS_OUT = {
     "on_the_upper_barrier": upper_inclusive,
+    "tie_at_lower": lower_inclusive,
+    "tie_at_upper": upper_inclusive,
     "corridor_out_of_reach": rebate_always,
     "no_lower_barrier": ignores_upper,
     "no_upper_barrier": ignores_lower,

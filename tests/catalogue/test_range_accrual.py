@@ -66,6 +66,8 @@ class OpenCorridor(RangeAccrual):
 
 BROKEN = [
     (OpenCorridor, "fixings_on_the_levels"),
+    (OpenCorridor, "tie_at_lower"),
+    (OpenCorridor, "tie_at_upper"),
     (CountsTodayInTheDenominator, "corridor_whole_line"),
     (OrInsteadOfAnd, "empty_corridor"),
     (OrInsteadOfAnd, "one_fixing_digital"),

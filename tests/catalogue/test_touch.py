@@ -95,10 +95,20 @@ def _twin(product, bug):
     return type(f"{product.__name__}_{bug.__name__}", (product,), {"payoff": bug, "__doc__": bug.__doc__})
 
 
+def untouched_strict(self, obs):
+    """A fixing exactly on the barrier does not touch it (S > H for an up barrier instead of S >= H)."""
+    s = np.column_stack([np.full(obs.paths, obs.s0), obs.s])
+    stay = (s <= self.barrier) if self.up else (s >= self.barrier)
+    return np.cumprod(stay.astype(float), axis=1)
+
+
 BROKEN = [
     (_twin(product, bug), case)
     for product in PRODUCTS
     for case, bug in (BUGS_ONE if product.one else BUGS_NO).items()
+] + [
+    (type(f"{product.__name__}_untouched_strict", (product,), {"untouched": untouched_strict}), "tie_at_barrier")
+    for product in PRODUCTS
 ]
 
 

@@ -46,6 +46,7 @@ def test_under_checked_example_lists_survivors_naming_the_missing_checks(tmp_pat
     # < made <= differs only on a path exactly on the barrier: flagged, with the advice
     strict = survivors[("compare_strict", "`<` -> `<=`")]
     assert strict["edge_only"] and "zero-volatility" in strict["suggestion"]
+    assert "Tie('barrier', 'above')" in strict["suggestion"] and "tie_at_barrier" in strict["suggestion"]
 
     # what the reduction to the European call sees is caught
     assert by[("compare_side", "`<` -> `>`")]["status"] == "caught"

@@ -19,6 +19,7 @@ import click
 
 from ..cli_support import EXIT_FAIL, EXIT_OK, InputFailure, Progress, handle_errors, scheduler_option, show_progress
 from ..report.mutation import render_mutation
+from ..settings import DEFAULT_INNER_POINTS
 from ..suite import DEFAULT_ALPHA, DEFAULT_PATHS, DEFAULT_SEED
 
 
@@ -91,6 +92,8 @@ class _Ticker:
 @click.option("--allow-long-run", is_flag=True,
               help="Run even when the estimated time is above the refusal limit (a week; see "
                    "limitcase.settings.RUN_REFUSE_SECONDS). Above an hour a warning gives the estimate.")
+@click.option("--inner-points", type=click.IntRange(min=0), default=DEFAULT_INNER_POINTS, show_default=True,
+              help="Interior parameter points at which every check of a mutant also runs (as in check); 0: none.")
 @click.option("--debug", is_flag=True, help="Show tracebacks for bad input.")
 @handle_errors
 @scheduler_option
@@ -98,7 +101,7 @@ def command(paths_in: tuple[str, ...], paths: int, quick_paths: int | None, equi
             seed: int, alpha: float, workers: int | None, method: str, operators: tuple[str, ...],
             selects: tuple[str, ...], min_score: float | None, show_caught: bool, json_path: str | None,
             time_limit: float | None, debug: bool, model_spec: str | None = None,
-            allow_long_run: bool = False) -> None:
+            allow_long_run: bool = False, inner_points: int = DEFAULT_INNER_POINTS) -> None:
     """Mutate the payoff code of the products in PATH (files or folders of .py files;
     default: the shipped catalogue), run each product's own checks on every mutant and
     report which bugs are caught, which survive (with the check that would catch them)
@@ -149,7 +152,7 @@ def command(paths_in: tuple[str, ...], paths: int, quick_paths: int | None, equi
                               equivalence_paths=equivalence_paths or EQUIVALENCE_PATHS, seed=seed, alpha=alpha,
                               workers=workers, operators=list(operators) or None, method=method, progress=progress,
                               time_limit=time_limit, model=model, allow_long_run=allow_long_run,
-                              warn=lambda note: click.echo(note, err=True))
+                              warn=lambda note: click.echo(note, err=True), inner_points=inner_points)
     finally:
         progress.close()
 

@@ -148,8 +148,11 @@ def _recommendation(mutant: Mutant, eq: Equivalence | None) -> str:
     if eq is not None and eq.edge_only and op == "compare_strict":
         lvl = next((p for p in mu.params_involved if _role(p) in ("barrier", "strike")), None)
         where = f"{lvl} set to the spot" if lvl else "the compared level set to the spot"
+        name = lvl or "LEVEL"
         return (
-            "To pin it, add a reduction under a zero-volatility model (model_changes vol=0 and dividend = rate, "
+            f"To pin it, declare the tie convention among the relations: Tie({name!r}, 'above') or "
+            f"Tie({name!r}, 'below'), the side a fixing exactly on {name} counts as (limitcase.ties: the "
+            f"check tie_at_{name} prices the edge paths with fixings on the level). Or add a reduction under a zero-volatility model (model_changes vol=0 and dividend = rate, "
             f"so the price stays at the spot on every date) with {where}: the path then sits exactly on the "
             "level and the contract's strict or non-strict inequality decides the cash flow, against a bond or "
             "the intrinsic value. Or state in the docstring that equality is immaterial under continuous models."

@@ -5,7 +5,6 @@ Part of :mod:`limitcase.mutate` (the package docstring describes the method).
 
 from __future__ import annotations
 
-import itertools
 import math
 import warnings
 from dataclasses import asdict, dataclass
@@ -16,6 +15,8 @@ import numpy as np
 from ..engine import PathRule, case_key, evaluate
 from ..errors import LimitcaseError
 from ..models.base import Model
+from ..edges import edge_observed as _edge_observed
+from ..edges import edge_paths
 from ..product import Cashflows, Observed, Product
 from ..reduce import Check, checks_for
 from ..settings import MUTATE_EQUIVALENCE_PATHS, MUTATE_EQUIVALENCE_REGRESSION_PATHS
@@ -202,81 +203,6 @@ def probe_difference(mutant_cls: type[Product], original: type[Product], *, path
     v, diff, se, price, sd, rnote = reuse_or_compare(_random_compare, orig, pt.product, pt.model, paths, seed,
                                                      case_key(original.__name__, "mutation-probe"), site)
     return PointDifference(pt.label, n, bad, paths, v, diff, se, price, sd, note or rnote)
-
-
-def _levels(product: Product, s0: np.ndarray) -> list[float]:
-    levels: list[float] = []
-    for v in list(np.ravel(s0)) + [v for v in product.params().values() if isinstance(v, float)]:
-        v = float(v)
-        if math.isfinite(v) and v > 0 and not any(abs(v - u) <= 1e-12 * v for u in levels):
-            levels.append(v)
-    return levels
-
-
-def edge_paths(t: np.ndarray, s0: float, levels: Sequence[float]) -> np.ndarray:
-    """Deterministic price paths ``(paths, dates)`` that sit on the levels the payoff
-    compares with: flat at the spot, at half and twice the spot, flat at each level,
-    ending exactly at each level, touching each level on the first, a middle and the last
-    date, touching one level in the middle and ending on another, rising and falling."""
-    n = len(t)
-    rows = [np.full(n, s0), np.full(n, 0.5 * s0), np.full(n, 2.0 * s0),
-            s0 * np.exp(0.5 * t / t[-1]), s0 * np.exp(-0.5 * t / t[-1])]
-    touch = sorted({0, n // 2, n - 1})
-    for level in levels:
-        rows.append(np.full(n, level))
-        rows.append(np.linspace(s0, level, n + 1)[1:])
-        for j in touch:
-            r = np.full(n, s0)
-            r[j] = level
-            rows.append(r)
-    for a, b in itertools.permutations(levels, 2):
-        r = np.full(n, s0)
-        r[n // 2] = a
-        r[-1] = b
-        rows.append(r)
-        r = np.full(n, a)
-        r[-1] = b
-        rows.append(r)
-    return np.array(rows, dtype=float)
-
-
-def _edge_observed(product: Product, model: Model, seed: int) -> Observed:
-    t = product.validated_dates()
-    s0_all = np.asarray(model.initial(), dtype=float)
-    levels = _levels(product, s0_all)
-    if product.multi_asset:
-        k = s0_all.size
-        blocks = []
-        base = np.broadcast_to(s0_all, (len(t), k))
-        per_asset = [edge_paths(t, float(s0_all[i]), levels) for i in range(k)]
-        m = per_asset[0].shape[0]
-        together = np.stack([per_asset[i] for i in range(k)], axis=2)  # every asset on its pattern
-        blocks.append(together)
-        for i in range(k):
-            b = np.broadcast_to(base, (m, len(t), k)).copy()
-            b[:, :, i] = per_asset[i]
-            blocks.append(b)
-        s = np.concatenate(blocks, axis=0)
-        s0: Any = s0_all
-        dividend: Any = np.asarray(model.dividend_yields(), dtype=float)
-    else:
-        s = edge_paths(t, float(s0_all[0]), levels)
-        s0 = float(s0_all[0])
-        dividend = float(np.asarray(model.dividend_yields())[0])
-    s.flags.writeable = False
-    zeros = np.zeros((1, len(t), model.normals_per_step()))
-    sim = model.simulate(t, zeros, np.random.default_rng(seed))
-    var = np.broadcast_to(sim.step_var, sim.s.shape)[0]  # (dates, assets)
-    if not product.multi_asset:
-        var = var[:, 0]
-    shape = s.shape
-
-    def step_var() -> np.ndarray:
-        return np.broadcast_to(var, shape)
-
-    u = np.random.default_rng(seed).random(shape)
-    u.flags.writeable = False
-    return Observed(t, s, s0, model.short_rate, step_var, dividend, lambda: u)
 
 
 def _flows(product: Product, obs: Observed) -> tuple[str, Any, Any]:

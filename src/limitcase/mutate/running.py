@@ -16,9 +16,10 @@ import numpy as np
 
 from ..errors import ParamError
 from ..models.base import Model
+from ..interior import interior_checks
 from ..product import Product
 from ..reduce import checks_for
-from ..settings import MUTATE_QUICK_PATHS
+from ..settings import DEFAULT_INNER_POINTS, MUTATE_QUICK_PATHS
 from ..suite import DEFAULT_ALPHA, DEFAULT_PATHS, DEFAULT_SEED, run_check
 from ..verdict import Outcome, finalise
 from ..workers import Lost, open_pool
@@ -62,9 +63,19 @@ costly part); a :class:`~limitcase.checks.Check` is frozen, so one list serves b
 
 
 def _checks_of(cls: type[Product]) -> list:
+    """The checks a mutant (or its original) is judged by, built once per class in this
+    process: the declared ones, then the same declarations at the run's interior points
+    (:mod:`limitcase.interior`; a mutant keeps its original's class name, so it is drawn
+    the same points)."""
     found = _CHECKS.get(cls)
     if found is None:
-        found = checks_for(cls, _REGISTRY.get("model"))
+        model = _REGISTRY.get("model")
+        s = _REGISTRY.get("settings") or {}
+        found = checks_for(cls, model)
+        points = int(s.get("inner_points", DEFAULT_INNER_POINTS))
+        if points > 0:
+            broken = sorted({c.case for c in found if c.error is not None})
+            found = found + interior_checks(cls, model, seed=s["seed"], points=points, skip_cases=broken)
         _CHECKS.clear()
         _CHECKS[cls] = found
     return found
@@ -223,6 +234,7 @@ def run_mutation(
     model: Model | None = None,
     allow_long_run: bool = False,
     warn: Callable[[str], None] | None = None,
+    inner_points: int = DEFAULT_INNER_POINTS,
 ) -> MutationReport:
     """Mutate each product's payoff code, run its checks on every mutant, and score.
 
@@ -311,7 +323,7 @@ def run_mutation(
     settings = dict(paths=int(paths), quick_paths=int(quick_paths), equivalence_paths=int(equivalence_paths),
                     seed=int(seed), alpha=float(alpha), workers=workers, method=method,
                     operators=list(OPERATORS) if operators is None else list(operators),
-                    model=None if model is None else model.label())
+                    model=None if model is None else model.label(), inner_points=int(inner_points))
     from ..sizing import enforce, estimate_mutation
 
     counts = collections.Counter(m.original for m in mutants)
