@@ -51,6 +51,12 @@ __all__ = [
     "REPRICE_LOCALVOL_STEPS_PER_YEAR",
     "REPRICE_TOLERANCE_VOL",
     "METHODS",
+    "END_CHECKS",
+    "END_STEP",
+    "END_FAR_FACTOR",
+    "END_MAX_DATES",
+    "SECOND_MODEL",
+    "SECOND_MODEL_WARP",
     "MAX_CASE_BYTES",
     "CASE_WORDS_PER_DATE",
     "RUN_WARN_SECONDS",
@@ -128,6 +134,31 @@ MIN_REGRESSION_PATHS = 1000
 
 MIN_MAX_PATHS = 100
 """The smallest ``--max-paths`` the command line accepts."""
+
+END_CHECKS = False
+"""Whether ``check`` adds the checks of every undeclared parameter end (``--ends``;
+:mod:`limitcase.ends`)."""
+
+END_STEP = 1.0 / 64.0
+"""Step of the points approaching an end, as a fraction of the distance from the default
+(of ``max(|end|, 1)`` when the default sits on the end): small, so the quadratic
+extrapolation's ``O(step^3)`` error stays far below the standard error."""
+
+END_FAR_FACTOR = 16.0
+"""An end at infinity is priced at the default moved this many times ``max(|default|, 1)``
+toward it (a far finite value)."""
+
+END_MAX_DATES = 1000
+"""An end whose product has more dates than this is listed, not priced (a count of 10,000
+monitoring dates)."""
+
+SECOND_MODEL = False
+"""Whether ``check`` reruns every path-by-path identity under Heston on warped dates
+(``--second-model``; :mod:`limitcase.second_model`)."""
+
+SECOND_MODEL_WARP = 1.5
+"""Strength ``c`` of the date warp of the second model, ``u -> (1 - exp(-c u)) / (1 - exp(-c))``
+on each interval between the legs' maturities: dates crowd toward the interval's start."""
 
 REPORT_PATHS = 16_384
 """Default paths of a report (``report --paths``; a power of two, as Sobol points want):
@@ -265,6 +296,8 @@ def reproduce_command(
     max_paths: int | None = None,
     model: str | None = None,
     alpha: float | None = None,
+    ends: bool = END_CHECKS,
+    second_model: bool = SECOND_MODEL,
 ) -> str:
     """The command line that reproduces a run (or, with ``select``, one of its checks).
 
@@ -288,6 +321,10 @@ def reproduce_command(
         parts += ["--precision", shlex.quote(str(precision))]
         if max_paths is not None:
             parts += ["--max-paths", str(max_paths)]
+    if ends != END_CHECKS:
+        parts += ["--ends" if ends else "--no-ends"]
+    if second_model != SECOND_MODEL:
+        parts += ["--second-model" if second_model else "--no-second-model"]
     if select is not None:
         parts += ["--select", "'" + select.replace("'", "'\\''") + "'"]
     return " ".join(parts)
