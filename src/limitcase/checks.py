@@ -75,6 +75,10 @@ class Check:
     note: str = ""
     error: str | None = None
     skip: str | None = None
+    allowance_weights: tuple[float, ...] = ()
+    """When given, the allowance also includes ``|sum(allowance_weights * prices)|``, estimated on
+    the same paths: an error bound the data give (an extrapolation's truncation error,
+    :mod:`limitcase.ends`)."""
 
     @property
     def label(self) -> str:

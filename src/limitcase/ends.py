@@ -6,8 +6,8 @@ the product is checked there against a base product. Every other end is *enumera
 and, under ``limitcase check --ends``, checked without any declaration:
 
 continuity (``end:PARAM.SIDE``)
-    The product is priced at the end ``E`` and at three points approaching it,
-    ``E + k d`` (``k = 1, 2, 3``, ``d`` a small step toward the default), on common paths.
+    The product is priced at the end ``E`` and at four points approaching it,
+    ``E + k d`` (``k = 1, ..., 4``, ``d`` a small step toward the default), on common paths.
     The quadratic through the three approaching prices, extrapolated to ``E`` (Lagrange,
     or equivalently Richardson extrapolation with step ratio 1), gives
     ``3 V(E + d) - 3 V(E + 2d) + V(E + 3d)``, so the statistic is the third difference
@@ -16,6 +16,15 @@ continuity (``end:PARAM.SIDE``)
     e.g. Burden and Faires, *Numerical Analysis*, section 4.2). Its standard error comes
     from the legs on common paths, and the test joins the run's Holm family like any check.
     A payoff coded wrongly only at the end (a special case ``if strike == 0``) breaks it.
+    The ``O(d^3)`` term is not below the standard error when the payoff moves smoothly with
+    the parameter on every path (its third difference is then about ``d^3`` times the third
+    derivative on every path, so the ratio of bias to standard error does not shrink with
+    ``d``); it is bounded by the same third difference one step further in,
+    ``V(E + d) - 3 V(E + 2d) + 3 V(E + 3d) - V(E + 4d)``, whose leading term differs from the
+    first one's by a factor ``1 + O(d)`` (the a-posteriori error estimate of Richardson
+    extrapolation): the allowance is :data:`~limitcase.settings.END_ALLOWANCE_FACTOR` times
+    its absolute value, estimated on the same paths. A jump at the end is not in it, and is
+    seen whatever ``d``.
 sign (``end:PARAM.SIDE:sign``)
     No-arbitrage sanity: a product whose cash flows are never negative (``nonnegative``)
     has a price ``>= 0`` at the end. The engine already refuses a non-finite or negative
@@ -43,24 +52,28 @@ from .errors import DeclarationError
 from .models.base import Model
 from .product import Product
 from .reduce import limit_product
-from .settings import END_FAR_FACTOR, END_MAX_DATES, END_STEP
+from .settings import END_ALLOWANCE_FACTOR, END_FAR_FACTOR, END_MAX_DATES, END_STEP
 
-__all__ = ["EndJump", "EndInfo", "SIDES", "END_WEIGHTS", "end_table", "end_checks", "end_value"]
+__all__ = ["EndJump", "EndInfo", "SIDES", "END_WEIGHTS", "ERROR_WEIGHTS", "ends_of_classes", "end_table", "end_checks", "end_value"]
 
 SIDES = ("low", "high")
 
-END_WEIGHTS = (1.0, -3.0, 3.0, -1.0)
-"""Weights of ``V(E), V(E + d), V(E + 2d), V(E + 3d)``: the price at the end minus the
-quadratic extrapolation of the three approaching prices (a third difference)."""
+END_WEIGHTS = (1.0, -3.0, 3.0, -1.0, 0.0)
+"""Weights of ``V(E), V(E + d), ..., V(E + 4d)``: the price at the end minus the quadratic
+extrapolation of the three nearest approaching prices (a third difference)."""
+
+ERROR_WEIGHTS = tuple(END_ALLOWANCE_FACTOR * w for w in (0.0, 1.0, -3.0, 3.0, -1.0))
+"""Weights of the truncation-error estimate: the same third difference one step further from
+the end, times :data:`~limitcase.settings.END_ALLOWANCE_FACTOR`."""
 
 _STATUS_TEXT = {
     "declared": "declared",
-    "enumerated": "enumerated (continuity and sign checked by check --ends)",
-    "jump": "declared a jump (sign checked by check --ends)",
-    "count": "should be declared: a count has no neighbours to extrapolate from (sign checked by check --ends)",
-    "open": "open end: not a value of the product",
+    "enumerated": "only enumerated (check --ends: continuity, sign)",
+    "jump": "declared a jump (check --ends: sign)",
+    "count": "to declare: a count, nothing to extrapolate from (check --ends: sign)",
+    "open": "open end, not a value of the product",
     "unreachable": "unreachable at the other defaults",
-    "large": "should be declared: too many dates to price here",
+    "large": "to declare: too many dates to price",
 }
 
 
@@ -168,18 +181,18 @@ def _suggest(cls: type, name: str, side: str, end: float) -> str:
             f"  # what {cls.__name__} becomes at {name}={_fmt(end)}")
 
 
-def _points(product: Product, name: str, spec: Any, value: float) -> tuple[float, float, float] | None:
-    """Three values approaching ``value`` from inside the range (toward the default)."""
+def _points(product: Product, name: str, spec: Any, value: float) -> tuple[float, ...] | None:
+    """Four values approaching ``value`` from inside the range (toward the default)."""
     x0 = float(product.params()[name])
     span = abs(x0 - value) if x0 != value else max(abs(value), 1.0)
     d = END_STEP * span
     inward = 1.0 if (x0 > value or (x0 == value and spec.low == value)) else -1.0
     if x0 == value and spec.low != value and spec.high != value:
         return None
-    pts = tuple(value + inward * k * d for k in (1, 2, 3))
+    pts = tuple(value + inward * k * d for k in (1, 2, 3, 4))
     if any(not spec.contains(p) for p in pts):
         return None
-    return pts  # type: ignore[return-value]
+    return pts
 
 
 def end_table(product: Product | type[Product]) -> list[EndInfo]:
@@ -233,7 +246,6 @@ def end_checks(product: Product | type[Product], model: Model | None = None) -> 
     docstring); an end that cannot be built becomes an error check of its own."""
     if isinstance(product, type):
         product = product()
-    model = product.scenario() if model is None else model
     cls = type(product)
     label = cls.__name__
     specs = cls.param_specs()
@@ -245,19 +257,26 @@ def end_checks(product: Product | type[Product], model: Model | None = None) -> 
         where = f"{row.param}={_fmt(row.value)}" + ("" if math.isfinite(row.end) else " (far value for inf)")
         try:
             at_end = product.replace(**{row.param: row.value})
+            end_model = at_end.scenario() if model is None else model
+            wanted = int(at_end.n_assets) if at_end.multi_asset else 1
+            if wanted != end_model.n_assets:
+                continue  # under the user's model this end has another asset count: nothing to compare
             if row.status == "enumerated":
                 pts = _points(product, row.param, specs[row.param], row.value)
                 assert pts is not None
                 legs = (at_end,) + tuple(product.replace(**{row.param: x}) for x in pts)
                 out.append(Check(
-                    product=label, case=case, kind="end", legs=legs, model=model, weights=END_WEIGHTS,
+                    product=label, case=case, kind="end", legs=legs, model=end_model, weights=END_WEIGHTS,
                     target=0.0, sense="==",
                     target_source=(f"price at {where} equals the quadratic extrapolation of the prices at "
-                                   f"{', '.join(_fmt(x) for x in pts)}"),
+                                   f"{', '.join(_fmt(x) for x in pts[:3])}"),
+                    allowance_weights=ERROR_WEIGHTS,
+                    allowance_reason=(f"the extrapolation's truncation error, estimated as {END_ALLOWANCE_FACTOR:g} "
+                                      f"x the same third difference one step further in (through {_fmt(pts[3])})"),
                     note=f"continuity into {where}"))
             if cls.nonnegative:
                 out.append(Check(
-                    product=label, case=case + ":sign", kind="end", legs=(at_end,), model=model, weights=(1.0,),
+                    product=label, case=case + ":sign", kind="end", legs=(at_end,), model=end_model, weights=(1.0,),
                     target=0.0, sense=">=", target_source="non-negative cash flows give a price >= 0",
                     note=f"sign at {where}" + (f"; declared jump: {row.detail}" if row.status == "jump" else "")))
         except Exception as exc:  # the product's own code at the end failed: an error of this end only

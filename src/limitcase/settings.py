@@ -54,6 +54,7 @@ __all__ = [
     "END_CHECKS",
     "END_STEP",
     "END_FAR_FACTOR",
+    "END_ALLOWANCE_FACTOR",
     "END_MAX_DATES",
     "SECOND_MODEL",
     "SECOND_MODEL_WARP",
@@ -139,16 +140,21 @@ END_CHECKS = False
 """Whether ``check`` adds the checks of every undeclared parameter end (``--ends``;
 :mod:`limitcase.ends`)."""
 
-END_STEP = 1.0 / 64.0
+END_STEP = 1.0 / 256.0
 """Step of the points approaching an end, as a fraction of the distance from the default
 (of ``max(|end|, 1)`` when the default sits on the end): small, so the quadratic
 extrapolation's ``O(step^3)`` error stays far below the standard error."""
+
+END_ALLOWANCE_FACTOR = 2.0
+"""The truncation allowance of a continuity check is this many times the third difference one
+step further from the end (:mod:`limitcase.ends`): the two leading terms differ by a factor
+``1 + O(step)``, so 2 covers them while the step is small against the price's scale of change."""
 
 END_FAR_FACTOR = 16.0
 """An end at infinity is priced at the default moved this many times ``max(|default|, 1)``
 toward it (a far finite value)."""
 
-END_MAX_DATES = 1000
+END_MAX_DATES = 500
 """An end whose product has more dates than this is listed, not priced (a count of 10,000
 monitoring dates)."""
 
