@@ -145,3 +145,22 @@ def test_jump_in_the_wrong_list_is_refused():
 
             def payoff(self, obs):
                 return obs.s[:, -1]
+
+
+def test_listing_shows_every_end_with_its_status_and_suggestion():
+    import json
+
+    from click.testing import CliRunner
+
+    from limitcase.cli import main
+
+    run = CliRunner().invoke(main, ["list", "payoffs/digitals.py", "--json"])
+    assert run.exit_code == 0, run.output
+    gap = next(p for p in json.loads(run.output)["products"] if p["name"] == "GapCall")
+    ends = {(e["param"], e["side"]): e for e in gap["ends"]}
+    assert len(ends) == 2 * len(gap["params"])  # every end of every parameter
+    assert ends[("strike", "low")]["status"] == "enumerated"
+    assert ends[("trigger", "low")]["status"] in ("declared", "enumerated")
+    assert all(e["detail"].startswith("Reduction") for e in ends.values() if e["status"] == "declared")
+    text = CliRunner().invoke(main, ["list", "payoffs/asians.py"]).output
+    assert "ends:" in text and "to declare" in text and "suggestion: Reduction(" in text
