@@ -18,7 +18,7 @@ from limitcase.reduce import checks_for
 from limitcase.second_model import SECOND_SUFFIX, second_model_checks, warp_dates, warped
 from limitcase.suite import run_checks
 from limitcase_payoffs.asians import ArithmeticAsianCall
-from limitcase_payoffs.barriers import UpAndOutCall
+from limitcase_payoffs.barriers import UpAndOutCall, UpAndOutCallContinuous
 from limitcase_payoffs.vanilla import EuropeanCall
 
 PATHS = 20_000
@@ -73,3 +73,28 @@ def test_catalogue_subset_passes(cls):
     checks = second_model_checks(checks_for(cls))
     result = run_checks(checks, paths=PATHS, seed=20261201)
     assert result.ok, [(o.case, o.message) for o in result.outcomes if o.verdict != "pass"]
+
+
+class FirstIntervalVarianceUpAndOut(UpAndOutCallContinuous):
+    """A continuously monitored up-and-out whose Brownian-bridge correction uses the first
+    interval's variance for every interval: right under Black-Scholes on equal steps (every
+    interval has the same variance), wrong under stochastic volatility or on uneven dates."""
+
+    def untouched(self, obs):
+        s = np.column_stack([np.full(obs.paths, obs.s0), obs.s])
+        stay = (s < self.barrier).astype(float)
+        first = np.broadcast_to(obs.step_var, obs.s.shape)[:, :1]
+        with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+            d = np.log(s / self.barrier)
+            gap = d[:, :-1] * d[:, 1:]
+            bridge = np.where(gap > 0.0, -np.expm1(-2.0 * gap / first), 0.0)
+        stay[:, 1:] *= bridge
+        return np.cumprod(stay, axis=1)
+
+
+def test_planted_model_quantity_bug_is_caught_only_by_the_second_model():
+    case = "in_plus_out_is_vanilla"
+    plain = [c for c in checks_for(FirstIntervalVarianceUpAndOut) if c.case == case]
+    assert run_checks(plain, paths=PATHS, seed=20261201).ok  # invisible under Black-Scholes on equal steps
+    out = run_checks(_second(FirstIntervalVarianceUpAndOut, case), paths=PATHS, seed=20261201).outcomes[0]
+    assert out.verdict == "fail" and out.pathwise_ok is False
