@@ -164,3 +164,11 @@ def test_listing_shows_every_end_with_its_status_and_suggestion():
     assert all(e["detail"].startswith("Reduction") for e in ends.values() if e["status"] == "declared")
     text = CliRunner().invoke(main, ["list", "payoffs/asians.py"]).output
     assert "ends:" in text and "to declare" in text and "suggestion: Reduction(" in text
+
+
+def test_description_for_the_dossier_carries_every_end():
+    from limitcase.document import describe_product
+
+    desc = describe_product(GapCall)
+    assert {(e.param, e.side) for e in desc.ends} == {(p, s) for p in GapCall.param_specs() for s in ("low", "high")}
+    assert {e.status for e in desc.ends} >= {"declared", "enumerated", "open"}
