@@ -169,6 +169,11 @@ def test_listing_shows_every_end_with_its_status_and_suggestion():
 def test_description_for_the_dossier_carries_every_end():
     from limitcase.document import describe_product
 
-    desc = describe_product(GapCall)
-    assert {(e.param, e.side) for e in desc.ends} == {(p, s) for p in GapCall.param_specs() for s in ("low", "high")}
-    assert {e.status for e in desc.ends} >= {"declared", "enumerated", "open"}
+    from limitcase_payoffs.digitals import CashOrNothingCall
+
+    desc = describe_product(CashOrNothingCall)
+    assert {(e.param, e.side) for e in desc.ends} == {(p, s) for p in CashOrNothingCall.param_specs()
+                                                      for s in ("low", "high")}
+    statuses = {(e.param, e.side): e.status for e in desc.ends}
+    assert statuses[("strike", "low")] == "declared"  # the zero_strike reduction
+    assert statuses[("cash", "low")] == "enumerated" and statuses[("maturity", "low")] == "open"
