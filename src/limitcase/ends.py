@@ -48,7 +48,7 @@ from dataclasses import dataclass
 from typing import Any, ClassVar, Sequence
 
 from .checks import Check
-from .errors import DeclarationError
+from .errors import DeclarationError, ParamError
 from .models.base import Model
 from .product import Product
 from .reduce import limit_product
@@ -220,10 +220,13 @@ def end_table(product: Product | type[Product]) -> list[EndInfo]:
                 continue
             try:
                 at_end = product.replace(**{name: value})
-                n_dates = len(at_end.validated_dates())
-            except Exception as exc:
-                rows.append(EndInfo(name, side, end, value, "unreachable", f"{type(exc).__name__}: {exc}", ""))
+            except ParamError as exc:  # a constraint between parameters (_check) refuses the end
+                rows.append(EndInfo(name, side, end, value, "unreachable", str(exc), ""))
                 continue
+            try:
+                n_dates = len(at_end.validated_dates())
+            except Exception:  # the product's own dates() fails at the end: an error its check reports
+                n_dates = 0
             if n_dates > END_MAX_DATES:
                 rows.append(EndInfo(name, side, end, value, "large",
                                     f"{n_dates} dates at {name}={_fmt(value)} (at most {END_MAX_DATES} priced)",

@@ -177,3 +177,23 @@ def test_description_for_the_dossier_carries_every_end():
     statuses = {(e.param, e.side): e.status for e in desc.ends}
     assert statuses[("strike", "low")] == "declared"  # the zero_strike reduction
     assert statuses[("cash", "low")] == "enumerated" and statuses[("maturity", "low")] == "open"
+
+
+def test_dates_failing_only_at_an_end_is_an_error_of_that_end():
+    class ShortSchedule(Product):
+        """Fixings every quarter of the window; the author's dates() divides by the start."""
+
+        start = Param(0.5, low=0.0, high=0.9, doc="start of the window")
+        maturity = Param(1.0, low=0.0, low_open=True, doc="years")
+
+        def dates(self):
+            ratio = self.maturity / self.start  # ZeroDivisionError at start=0
+            return self.start + (self.maturity - self.start) * np.arange(1, 5) / 4 * ratio / ratio
+
+        def payoff(self, obs):
+            return obs.s[:, -1]
+
+    rows = {(r.param, r.side): r for r in end_table(ShortSchedule)}
+    assert rows[("start", "low")].status == "enumerated"  # not hidden as unreachable
+    result = _run([c for c in end_checks(ShortSchedule) if c.case == "end:start.low"])
+    assert result.outcomes[0].verdict == "error" and "ZeroDivisionError" in result.outcomes[0].message
