@@ -5,6 +5,7 @@ and the relations that must hold; the reducer turns those into checks; the engin
 them on common paths with standard errors; the verdict applies Holm's correction.
 """
 
+from .ends import EndJump
 from .engine import BLOCK, Estimate, evaluate, price
 from .errors import DeclarationError, InputError, LimitcaseError, ModelError, NoReference, ParamError, PayoffError
 from .models import BlackScholes, Heston, Merton, Model, MultiBlackScholes
@@ -22,6 +23,7 @@ __all__ = [
     "Check",
     "Convex",
     "DeclarationError",
+    "EndJump",
     "Estimate",
     "Heston",
     "Identity",

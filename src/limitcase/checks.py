@@ -98,6 +98,10 @@ class Check:
     origin: Origin | None = None
     path_share: float = 1.0
     direct: "Callable[[], tuple[bool | None, str, int]] | None" = None
+    allowance_weights: tuple[float, ...] = ()
+    """When given, the allowance also includes ``|sum(allowance_weights * prices)|``, estimated on
+    the same paths: an error bound the data give (an extrapolation's truncation error,
+    :mod:`limitcase.ends`)."""
 
     @property
     def label(self) -> str:

@@ -31,9 +31,11 @@ from .settings import (
     DEFAULT_MAX_PATHS,
     DEFAULT_METHOD,
     DEFAULT_REGRESSION_PATHS,
+    END_CHECKS,
     METHODS,
     MIN_MAX_PATHS,
     MIN_REGRESSION_PATHS,
+    SECOND_MODEL,
     reproduce_command,
 )
 
@@ -74,13 +76,20 @@ def main() -> None:
 @click.option("--allow-long-run", is_flag=True,
               help="Run even when the estimated time is above the refusal limit (a week; see "
                    "limitcase.settings.RUN_REFUSE_SECONDS). Above an hour a warning gives the estimate.")
+@click.option("--ends/--no-ends", "ends", default=END_CHECKS, show_default=True,
+              help="Also check every parameter end no reduction declares: continuity into it (the price "
+                   "there against the extrapolation of prices approaching it) and the sign of the price.")
+@click.option("--second-model/--no-second-model", "second_model", default=SECOND_MODEL, show_default=True,
+              help="Also run every path-by-path identity under Heston on warped (uneven) dates, "
+                   "as cases named CASE~heston.")
 @handle_errors
 @scheduler_option
 def check(paths_in: tuple[str, ...], paths: int, seed: int, alpha: float, json_path: str | None,
           junit_path: str | None, debug: bool, selects: tuple[str, ...], regression_paths: int | None,
           method: str, precision: str | None, max_paths: int, workers: int | None,
           model_spec: str | None = None, allow_long_run: bool = False,
-          inner_points: int = DEFAULT_INNER_POINTS) -> None:
+          inner_points: int = DEFAULT_INNER_POINTS, ends: bool = END_CHECKS,
+          second_model: bool = SECOND_MODEL) -> None:
     """Run every declared reduction and relation of the products in PATH (files or
     folders of .py files; default: the shipped catalogue)."""
     import time
@@ -100,7 +109,8 @@ def check(paths_in: tuple[str, ...], paths: int, seed: int, alpha: float, json_p
     products = load_products(paths_in, failures=failures)
     if not products and not failures:
         raise InputFailure(f"no Product classes found in {', '.join(paths_in) or 'the catalogue'}")
-    planned, skipped = plan_checks(products, model, failures, inner_points=inner_points, seed=seed)
+    planned, skipped = plan_checks(products, model, failures, inner_points=inner_points, seed=seed, ends=ends,
+                                   second_model=second_model)
     for s in skipped:
         click.echo(f"skipped {s.product}: {s.reason}")
     # a file that did not import is reported whatever --select says: nothing is lost
@@ -137,7 +147,8 @@ def check(paths_in: tuple[str, ...], paths: int, seed: int, alpha: float, json_p
     click.echo("")
     # seed and paths are appended per failing check by the renderers
     reproduce = reproduce_command("check", paths_in, seed=None, paths=None, method=method, precision=precision,
-                                  max_paths=max_paths, alpha=alpha, model=model_spec, inner_points=inner_points)
+                                  max_paths=max_paths, alpha=alpha, model=model_spec, inner_points=inner_points,
+                                  ends=ends, second_model=second_model)
     click.echo(render_summary(result, reproduce=reproduce))
     used = result.extra.get("processes", 1)
     click.echo(f"{result.extra['wall_seconds']:.1f} s on " + ("1 process" if used == 1 else f"{used} worker processes"))

@@ -14,8 +14,10 @@ from typing import Sequence
 from .loader import LoadFailure, qualified_names
 from .models.base import Model
 from .product import Product
+from .ends import end_checks
 from .reduce import Check, checks_for
-from .settings import DEFAULT_SEED
+from .second_model import second_model_checks
+from .settings import DEFAULT_SEED, END_CHECKS, SECOND_MODEL
 
 __all__ = ["Skipped", "plan_checks", "model_fits"]
 
@@ -39,12 +41,16 @@ def model_fits(product: Product, model: Model) -> str | None:
 
 def plan_checks(classes: Sequence[type[Product]], model: Model | None = None,
                 failures: Sequence[LoadFailure] = (), *, inner_points: int = 0,
-                seed: int = DEFAULT_SEED) -> tuple[list[Check], list[Skipped]]:
+                seed: int = DEFAULT_SEED, ends: bool = END_CHECKS,
+                second_model: bool = SECOND_MODEL) -> tuple[list[Check], list[Skipped]]:
     """The checks of ``classes`` (each under its own scenario, or all under ``model``).
 
     With ``inner_points`` > 0, each declaration also runs at that many interior parameter
     points drawn from ``seed`` (:mod:`limitcase.interior`), listed after the product's checks
     at the defaults.
+    With ``ends``, each product's undeclared parameter ends are checked too
+    (:func:`limitcase.ends.end_checks`); with ``second_model``, each path-by-path identity
+    again under Heston on warped dates (:func:`limitcase.second_model.second_model_checks`).
 
     A product whose asset count differs from ``model``'s is skipped with the reason; a file
     that did not import becomes an error check of kind ``"load"`` named after the file; two
@@ -83,6 +89,14 @@ def plan_checks(classes: Sequence[type[Product]], model: Model | None = None,
                 found = found + [Check(product=cls.__name__, case="interior", kind="reduction",
                                        error=f"{cls.__name__}'s interior points cannot be drawn: "
                                              f"{type(exc).__name__}: {exc}")]
+        if ends:
+            try:
+                found = found + end_checks(cls, model)
+            except Exception as exc:
+                found.append(Check(product=cls.__name__, case="ends", kind="end",
+                                   error=f"{cls.__name__}'s ends cannot be enumerated: {type(exc).__name__}: {exc}"))
+        if second_model:
+            found = found + second_model_checks(found)
         if name != cls.__name__:
             found = [dataclasses.replace(c, product=name) for c in found]
         checks.extend(found)

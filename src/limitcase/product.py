@@ -122,6 +122,9 @@ class Product(Parametrised):
         True on a shared base that ``check`` must not collect.
     ``reductions`` / ``relations``
         Declared limits and must-hold relations (:mod:`limitcase.reduce`).
+    ``end_jumps``
+        Parameter ends where the price jumps (:class:`limitcase.ends.EndJump`): continuity
+        into them is not checked by ``check --ends``.
     """
 
     multi_asset: ClassVar[bool] = False
@@ -130,6 +133,7 @@ class Product(Parametrised):
     abstract: ClassVar[bool] = True
     reductions: ClassVar[tuple["Reduction", ...]] = ()
     relations: ClassVar[tuple["Relation", ...]] = ()
+    end_jumps: ClassVar[tuple[Any, ...]] = ()
 
     def __init_subclass__(cls, **kwargs: Any) -> None:
         super().__init_subclass__(**kwargs)
@@ -256,7 +260,7 @@ def validate_declarations(cls: type) -> None:
     declaration, with a close-match suggestion for a misspelt parameter.
     """
     seen: dict[str, str] = {}
-    for attr in ("reductions", "relations"):
+    for attr in ("reductions", "relations", "end_jumps"):
         declared = getattr(cls, attr)
         if isinstance(declared, (str, bytes)) or not isinstance(declared, (tuple, list)):
             raise DeclarationError(f"{cls.__name__}.{attr} = {declared!r}; give a tuple of declarations")
@@ -267,7 +271,8 @@ def validate_declarations(cls: type) -> None:
             if kind is None or not callable(getattr(decl, "validate_on", None)):
                 raise DeclarationError(
                     f"{cls.__name__}.{attr}[{i}] is {decl!r}, not a declaration; use Reduction(...) in "
-                    "reductions and Identity, Monotone, Convex, Bound or a Relation subclass in relations"
+                    "reductions, Identity, Monotone, Convex, Bound or a Relation subclass in relations and "
+                    "EndJump(...) in end_jumps"
                 )
             if kind != attr:
                 raise DeclarationError(

@@ -60,6 +60,13 @@ __all__ = [
     "INNER_SHRINK_FAILURES",
     "CLT_MIN_PAYING",
     "REFERENCE_ACCURACY",
+    "END_CHECKS",
+    "END_STEP",
+    "END_FAR_FACTOR",
+    "END_ALLOWANCE_FACTOR",
+    "END_MAX_DATES",
+    "SECOND_MODEL",
+    "SECOND_MODEL_WARP",
     "MAX_CASE_BYTES",
     "CASE_WORDS_PER_DATE",
     "RUN_WARN_SECONDS",
@@ -139,6 +146,36 @@ MIN_REGRESSION_PATHS = 1000
 
 MIN_MAX_PATHS = 100
 """The smallest ``--max-paths`` the command line accepts."""
+
+END_CHECKS = False
+"""Whether ``check`` adds the checks of every undeclared parameter end (``--ends``;
+:mod:`limitcase.ends`)."""
+
+END_STEP = 1.0 / 256.0
+"""Step of the points approaching an end, as a fraction of the distance from the default
+(of ``max(|end|, 1)`` when the default sits on the end): small, so the quadratic
+extrapolation's ``O(step^3)`` error stays far below the standard error."""
+
+END_ALLOWANCE_FACTOR = 2.0
+"""The truncation allowance of a continuity check is this many times the third difference one
+step further from the end (:mod:`limitcase.ends`): the two leading terms differ by a factor
+``1 + O(step)``, so 2 covers them while the step is small against the price's scale of change."""
+
+END_FAR_FACTOR = 16.0
+"""An end at infinity is priced at the default moved this many times ``max(|default|, 1)``
+toward it (a far finite value)."""
+
+END_MAX_DATES = 500
+"""An end whose product has more dates than this is listed, not priced (a count of 10,000
+monitoring dates)."""
+
+SECOND_MODEL = False
+"""Whether ``check`` reruns every path-by-path identity under Heston on warped dates
+(``--second-model``; :mod:`limitcase.second_model`)."""
+
+SECOND_MODEL_WARP = 1.5
+"""Strength ``c`` of the date warp of the second model, ``u -> (1 - exp(-c u)) / (1 - exp(-c))``
+on each interval between the legs' maturities: dates crowd toward the interval's start."""
 
 REPORT_PATHS = 16_384
 """Default paths of a report (``report --paths``; a power of two, as Sobol points want):
@@ -335,6 +372,8 @@ def reproduce_command(
     model: str | None = None,
     alpha: float | None = None,
     inner_points: int | None = None,
+    ends: bool = END_CHECKS,
+    second_model: bool = SECOND_MODEL,
 ) -> str:
     """The command line that reproduces a run (or, with ``select``, one of its checks).
 
@@ -360,6 +399,10 @@ def reproduce_command(
         parts += ["--precision", shlex.quote(str(precision))]
         if max_paths is not None:
             parts += ["--max-paths", str(max_paths)]
+    if ends != END_CHECKS:
+        parts += ["--ends" if ends else "--no-ends"]
+    if second_model != SECOND_MODEL:
+        parts += ["--second-model" if second_model else "--no-second-model"]
     if select is not None:
         parts += ["--select", "'" + select.replace("'", "'\\''") + "'"]
     return " ".join(parts)

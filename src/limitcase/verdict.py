@@ -295,10 +295,13 @@ def decide(check: Check, joint: Joint, seed: int) -> Outcome:
                            value=est.value, stderr=est.stderr, reference=check.target, pathwise_ok=pathwise_ok,
                            message=("path-by-path identity holds on every path; " if pathwise_ok else "")
                            + f"statistical comparison skipped at this interior point: {why}")
-    p = 0.0 if pathwise_ok is False else p_value(diff, est.stderr, check.sense, check.allowance + accuracy, dof)
+    allowance = check.allowance
+    if check.allowance_weights:  # an error bound estimated on the same paths (limitcase.ends)
+        allowance += abs(float(joint.estimate(check.allowance_weights).value))
+    p = 0.0 if pathwise_ok is False else p_value(diff, est.stderr, check.sense, allowance + accuracy, dof)
     z = diff / est.stderr if est.stderr > 0 else (0.0 if diff == 0 else math.copysign(math.inf, diff))
-    if check.allowance:
-        messages.append(f"allowance {check.allowance:.4g}: {check.allowance_reason}")
+    if allowance:
+        messages.append(f"allowance {allowance:.4g}: {check.allowance_reason}")
     return Outcome(
         product=check.product,
         case=check.case,
@@ -310,7 +313,7 @@ def decide(check: Check, joint: Joint, seed: int) -> Outcome:
         difference=diff,
         z=z,
         p_value=p,
-        allowance=check.allowance,
+        allowance=allowance,
         allowance_reason=check.allowance_reason,
         sense=check.sense,
         message="; ".join(messages),

@@ -25,7 +25,7 @@ from pathlib import Path
 import pytest
 
 import limitcase.testing as lt
-from limitcase import Bound, Convex, Identity, Model, Monotone, Observed, Param, Product, Reduction
+from limitcase import Bound, Convex, EndJump, Identity, Model, Monotone, Observed, Param, Product, Reduction
 from limitcase.audits import run_audits
 from limitcase.models import Degeneration, Simulated
 
@@ -165,7 +165,7 @@ def _undocumented(text: str, names) -> list[str]:
     return sorted(n for n in names if f"`{n}`" not in text and f"`{n}=" not in text and f"`{n}(" not in text)
 
 
-@pytest.mark.parametrize("cls", [Reduction, Identity, Monotone, Convex, Bound, Param], ids=lambda c: c.__name__)
+@pytest.mark.parametrize("cls", [Reduction, Identity, Monotone, Convex, Bound, EndJump, Param], ids=lambda c: c.__name__)
 def test_every_declaration_option_is_documented(cls: type) -> None:
     names = [f.name for f in dataclasses.fields(cls)]
     init = [p for p in inspect.signature(cls).parameters if p != "self"]
@@ -196,7 +196,7 @@ def signature_text(obj, name: str) -> str:
     return f"{name}({', '.join(parts)})"
 
 
-@pytest.mark.parametrize("cls", [Reduction, Identity, Monotone, Convex, Bound, Param], ids=lambda c: c.__name__)
+@pytest.mark.parametrize("cls", [Reduction, Identity, Monotone, Convex, Bound, EndJump, Param], ids=lambda c: c.__name__)
 def test_declaration_signatures_and_defaults_are_quoted_exactly(cls: type) -> None:
     """A changed default (or a new option) shows here: the docs quote each signature."""
     heading = "(`Param`)" if cls is Param else f"`{cls.__name__}`"

@@ -37,6 +37,8 @@ def describe(cls: type) -> dict[str, Any]:
                          for r in desc.reductions]
     rec["relations"] = [{"name": r.name, "type": r.type, "sense": r.sense, "pathwise": r.pathwise, "what": r.what,
                          "error": r.error} for r in desc.relations]
+    rec["ends"] = [{"param": e.param, "side": e.side, "end": e.end, "value": e.value, "status": e.status,
+                    "text": e.text, "detail": e.detail, "suggestion": e.suggestion} for e in desc.ends]
     return jsonable(rec)
 
 
@@ -78,7 +80,26 @@ def _render(rec: dict[str, Any]) -> str:
             else:
                 how = ", path by path" if r["pathwise"] else ""
                 lines.append(f"    {r['name']} [{r['type']}{how}]: {r['what']}")
+    lines += _render_ends(rec.get("ends", []))
     return "\n".join(lines)
+
+
+SHOULD_DECLARE = ("count", "large")
+"""End statuses whose suggestion the listing prints: ends ``check --ends`` cannot check."""
+
+
+def _render_ends(ends: list[dict[str, Any]]) -> list[str]:
+    """The parameter ends: declared, only enumerated, or to declare (with the suggestion)."""
+    if not ends:
+        return []
+    lines = ["  ends:"]
+    w = max(len(f"{e['param']}.{e['side']}") for e in ends)
+    for e in ends:
+        detail = f" ({e['detail']})" if e["detail"] else ""
+        lines.append(f"    {(e['param'] + '.' + e['side']).ljust(w)}  {_text(e['end']):>6}  {e['text']}{detail}")
+        if e["status"] in SHOULD_DECLARE and e["suggestion"]:
+            lines.append(f"    {' ' * w}          suggestion: {e['suggestion']}")
+    return lines
 
 
 @click.command("list")
@@ -102,4 +123,7 @@ def command(paths_in: tuple[str, ...], as_json: bool, debug: bool) -> None:
     click.echo("\n\n".join(_render(r) for r in records))
     n_red = sum(len(r["reductions"]) for r in records)
     n_rel = sum(len(r["relations"]) for r in records)
-    click.echo(f"\n{len(records)} products, {n_red} reductions, {n_rel} relation cases")
+    n_end = sum(1 for r in records for e in r.get("ends", []) if e["status"] in ("enumerated", "jump"))
+    n_todo = sum(1 for r in records for e in r.get("ends", []) if e["status"] in SHOULD_DECLARE)
+    click.echo(f"\n{len(records)} products, {n_red} reductions, {n_rel} relation cases, "
+               f"{n_end} parameter ends only enumerated (check --ends), {n_todo} to declare")

@@ -5,12 +5,14 @@ its relations. ``limitcase list`` prints it and each dossier page opens with it.
 from __future__ import annotations
 
 import inspect
+import math
 from pathlib import Path
 from typing import Any
 
+from ..ends import end_table
 from ..product import Product
 from ..reduce import limit_product
-from .records import ParamInfo, ProductDescription, ReductionInfo, RelationInfo
+from .records import EndRow, ParamInfo, ProductDescription, ReductionInfo, RelationInfo
 
 __all__ = ["describe_product", "source_of"]
 
@@ -68,4 +70,9 @@ def describe_product(cls: type[Product]) -> ProductDescription:
         except Exception as exc:
             desc.relations.append(RelationInfo(getattr(rel, "name", "") or kind, kind, None, None, "",
                                                f"{type(exc).__name__}: {exc}"))
+    try:
+        desc.ends = [EndRow(r.param, r.side, r.end, r.value, r.status, r.text, r.detail, r.suggestion)
+                     for r in end_table(product)]
+    except Exception as exc:  # an end that cannot be enumerated: reported with the product
+        desc.ends = [EndRow("", "", math.nan, math.nan, "error", f"ends cannot be enumerated: {type(exc).__name__}: {exc}")]
     return desc

@@ -17,7 +17,7 @@ if TYPE_CHECKING:  # pragma: no cover
 
 __all__ = [
     "Point", "SweepSeries", "ConvergenceSeries", "StepSeries", "FormulaRecord", "RecognitionRecord",
-    "LimitRecord", "ParamInfo", "ReductionInfo", "RelationInfo", "ProductDescription", "MutationScore",
+    "LimitRecord", "ParamInfo", "ReductionInfo", "RelationInfo", "EndRow", "ProductDescription", "MutationScore",
     "MutationSummary", "ProductPage", "Dossier",
 ]
 
@@ -168,6 +168,22 @@ class RelationInfo:
     error: str | None = None
 
 
+@dataclass(frozen=True)
+class EndRow:
+    """One end of one parameter (:func:`limitcase.ends.end_table`): ``status`` is
+    ``declared``, ``enumerated``, ``jump``, ``count``, ``open``, ``unreachable`` or
+    ``large``; ``text`` says it in words; ``suggestion`` is the Reduction line to write."""
+
+    param: str
+    side: str
+    end: float
+    value: float
+    status: str
+    text: str
+    detail: str = ""
+    suggestion: str = ""
+
+
 @dataclass
 class ProductDescription:
     """A product class as declared: what ``limitcase list`` shows and a dossier page heads with."""
@@ -184,6 +200,7 @@ class ProductDescription:
     reductions: list[ReductionInfo] = field(default_factory=list)
     relations: list[RelationInfo] = field(default_factory=list)
     error: str | None = None
+    ends: list[EndRow] = field(default_factory=list)
 
 
 @dataclass(frozen=True)

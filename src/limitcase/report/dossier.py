@@ -287,6 +287,12 @@ def _product_html(d: "Dossier", page: "ProductPage", pics: dict[str, bytes]) -> 
     rows = "".join(f"<tr><td>{_e(p.name)}</td><td class=n>{_e(_num(p.default))}</td><td>{_e(p.range)}</td>"
                    f"<td>{_e(p.doc)}</td></tr>" for p in desc.params)
     b.append(f"<table><tr><th>parameter</th><th>default</th><th>range</th><th>meaning</th></tr>{rows}</table>")
+    if desc.ends:  # every end: declared, only enumerated (check --ends), or to declare (with a suggestion)
+        b.append("<h2>Parameter ends</h2>")
+        rows = "".join(f"<tr><td>{_e(e.param)}.{_e(e.side)}</td><td class=n>{_e(_num(e.end))}</td><td>{_e(e.text)}</td>"
+                       f"<td>{_e(e.detail)}{'<br><code>' + _e(e.suggestion) + '</code>' if e.status in ('count', 'large') else ''}"
+                       "</td></tr>" for e in desc.ends)
+        b.append(f"<table><tr><th>end</th><th>at</th><th>status</th><th>detail</th></tr>{rows}</table>")
 
     b.append("<h2>Limits</h2>")
     if not page.limits:

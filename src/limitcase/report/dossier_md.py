@@ -90,6 +90,10 @@ def product_md(d: "Dossier", page: "ProductPage", images: dict[str, str]) -> str
         m += ["_The product states no formula (`formula()` returns None)._", ""]
     m += ["## Parameters", "", _table(("parameter", "default", "range", "meaning"),
                                       [(p.name, _num(p.default), p.range, p.doc) for p in desc.params]), ""]
+    if desc.ends:  # every end: declared, only enumerated (check --ends), or to declare (with a suggestion)
+        m += ["## Parameter ends", "", _table(("end", "at", "status", "detail"), [
+            (f"{e.param}.{e.side}", _num(e.end), e.text,
+             e.detail + (f" `{e.suggestion}`" if e.status in ("count", "large") else "")) for e in desc.ends]), ""]
     m += ["## Limits", ""]
     for lim in page.limits:
         o = lim.outcome
