@@ -134,6 +134,14 @@ def whole_life_variance(self, obs):
     return _settle(self, obs, _bridged(self, obs, np.sum(obs.step_var), first=0))
 
 
+def tie_counts_as_untouched(self, obs):
+    """A fixing exactly on the barrier does not touch it (<= written for <, >= for >)."""
+    s = _with_today(obs)
+    return np.cumprod((s <= self.barrier if self.up else s >= self.barrier).astype(float), axis=1)
+
+
+tie_counts_as_untouched.attr = "untouched"  # replaces the product's untouched(), not its payoff
+
 BUGS = {
     "discrete_out": {
         "barrier_out_of_reach": wrong_side,
@@ -145,6 +153,7 @@ BUGS = {
         "at_most_vanilla": best_fixing,
         "at_least_continuous": bgk_wrong_sign,
         "closed_form": best_fixing,
+        "tie_at_barrier": tie_counts_as_untouched,
     },
     "discrete_in": {
         "barrier_out_of_reach": rebate_dropped,
@@ -155,6 +164,7 @@ BUGS = {
         "at_most_vanilla": best_fixing,
         "at_most_continuous": bgk_wrong_sign,
         "closed_form": best_fixing,
+        "tie_at_barrier": tie_counts_as_untouched,
     },
     "continuous_out": {
         "barrier_out_of_reach": wrong_side,
@@ -191,7 +201,7 @@ def _group(cls):
 
 
 def _twin(cls, bug):
-    return type(f"{cls.__name__}_{bug.__name__}", (cls,), {"payoff": bug, "__doc__": bug.__doc__})
+    return type(f"{cls.__name__}_{bug.__name__}", (cls,), {getattr(bug, "attr", "payoff"): bug, "__doc__": bug.__doc__})
 
 
 TWINS = [(cls, case, bug) for cls in CLASSES for case, bug in BUGS[_group(cls)].items()]

@@ -14,7 +14,8 @@ from limitcase.testing import assert_all_pass, assert_caught
 from limitcase_payoffs.local_vol import LocalVolDownAndOutCall
 from limitcase_payoffs.vanilla import EuropeanCall
 
-from test_barriers import best_fixing, in_out_swapped, misses_last_date, only_at_maturity, rebate_at_expiry_always, wrong_side
+from test_barriers import (best_fixing, in_out_swapped, misses_last_date, only_at_maturity, rebate_at_expiry_always,
+                           tie_counts_as_untouched, wrong_side)
 
 BUGS = {
     "barrier_out_of_reach": wrong_side,
@@ -25,6 +26,7 @@ BUGS = {
     "worth_more_as_barrier_moves_away": in_out_swapped,
     "at_most_vanilla": best_fixing,
     "closed_form": only_at_maturity,
+    "tie_at_barrier": tie_counts_as_untouched,
 }
 
 
@@ -34,7 +36,8 @@ def test_every_declared_check_passes():
 
 @pytest.mark.parametrize("case, bug", list(BUGS.items()), ids=list(BUGS))
 def test_broken_twin_is_caught(case, bug):
-    twin = type(f"LocalVolDownAndOutCall_{bug.__name__}", (LocalVolDownAndOutCall,), {"payoff": bug})
+    twin = type(f"LocalVolDownAndOutCall_{bug.__name__}", (LocalVolDownAndOutCall,),
+                {getattr(bug, "attr", "payoff"): bug})
     assert_caught(twin, case, paths=20_000)
 
 

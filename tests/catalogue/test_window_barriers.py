@@ -88,8 +88,19 @@ def rebate_always(self, obs):
     return _settle(self, obs, _window(self, obs), rebate=0.0) + self.rebate
 
 
+def strict_touch(self, obs):
+    """A fixing exactly on the barrier does not count as touching it (> written for >=)."""
+    s = np.column_stack([np.full(obs.paths, obs.s0), obs.s])
+    past = (s > self.barrier) if self.up else (s < self.barrier)
+    alive = ~np.any(past & _window(self, obs), axis=1)
+    s_end = obs.s[:, -1]
+    vanilla = np.maximum(s_end - self.strike, 0.0) if self.up else np.maximum(self.strike - s_end, 0.0)
+    return np.where(alive, vanilla, self.rebate) if self.out else np.where(alive, self.rebate, vanilla)
+
+
 BUGS = {
     "empty_window": window_ignored,
+    "tie_at_barrier": strict_touch,
     "barrier_out_of_reach": None,  # per kind below
     "touched_today": today_not_watched,
     "closed_form": window_ignored,
