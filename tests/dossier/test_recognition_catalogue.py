@@ -50,6 +50,7 @@ RECORDED = {
     "LocalVolDownAndOutCall/barrier_out_of_reach": "equal",
     "LocalVolDownAndOutCall/touched_today": "n/a",
     "LocalVolDownAndOutCall/touched_today_rebate_paid_now": "n/a",
+    "LocalVolDownAndOutCall/closed_form": "equal",
     "UpAndInCall/barrier_out_of_reach": "n/a",
     "UpAndInCall/closed_form": "equal",
     "UpAndInCall/touched_today": "undecided",

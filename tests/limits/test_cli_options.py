@@ -22,7 +22,8 @@ def test_second_model_cases_are_named_with_the_suffix(tmp_path):
     run, doc = _check(tmp_path, "--second-model", "--select", "EuropeanCall/put_call_parity")
     assert run.exit_code == 0, run.output
     cases = {c["case"] for c in doc["cases"] if c["kind"] != "audit"}
-    assert cases == {"put_call_parity", "put_call_parity~heston"}
+    # at the defaults and at the interior point, each again under the second model
+    assert cases == {"put_call_parity", "put_call_parity~heston", "put_call_parity@p1", "put_call_parity@p1~heston"}
 
 
 def test_end_cases_run_and_are_off_by_default(tmp_path):

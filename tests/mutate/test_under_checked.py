@@ -53,10 +53,10 @@ def test_under_checked_example_lists_survivors_naming_the_missing_checks(tmp_pat
     assert by[("index_shift", "index `-1` -> `-2`")]["status"] == "caught"
     assert by[("max_min", "`.maximum` -> `.minimum`")]["status"] in ("caught", "error")
 
-    # strike and spot swapped is invisible at the check points (strike = spot = 100 in every
-    # check): equivalent there, but flagged as paying differently off them
+    # strike and spot swapped is invisible at the declared check points (strike = spot = 100
+    # in every declared check); the interior point, drawn away from the defaults, catches it
     swap = by[("strike_spot", "strike `self.strike` -> spot `obs.s0`")]
-    assert swap["status"] == "equivalent" and "strike away from the spot" in swap["suggestion"]
+    assert swap["status"] == "caught" and any("@p" in case for case in swap["detected_by"]), swap
 
     counted = [m for m in doc["mutants"] if m["status"] != "equivalent"]
     detected = [m for m in counted if m["status"] in ("caught", "error")]

@@ -62,6 +62,12 @@ for its equivalence points and again for its checks (the references they carry a
 costly part); a :class:`~limitcase.checks.Check` is frozen, so one list serves both."""
 
 
+_USABLE = ("pass", "skip")
+"""The original's verdicts under which a case can still judge a mutant: a pass, or a skip
+(an interior point's statistical comparison skipped for too few paying paths: its
+path-by-path part still runs, and a mutant that fails it is caught)."""
+
+
 def _checks_of(cls: type[Product]) -> list:
     """The checks a mutant (or its original) is judged by, built once per class in this
     process: the declared ones, then the same declarations at the run's interior points
@@ -106,7 +112,7 @@ def _run_each(cls: type[Product], paths: int, s: dict, order: Sequence[int] | No
                 o = run_check(checks[j], paths=paths, seed=s["seed"], method=s["method"], alpha=s["alpha"])
                 seconds[j] = time.process_time() - t0
                 raw[j] = o
-                if (baseline is not None and j < len(baseline) and baseline[j] == "pass" and o.verdict != "error"
+                if (baseline is not None and j < len(baseline) and baseline[j] in _USABLE and o.verdict != "error"
                         and (o.pathwise_ok is False or (o.p_value is not None and o.p_value < limit))):
                     return raw, seconds, "", j
         return raw, seconds, "", None
@@ -141,7 +147,7 @@ def _detection(outcomes: list[Outcome], crash: str, baseline: Sequence[str]) -> 
         return "error", [], crash
     failed, errored, msgs = [], [], []
     for i, o in enumerate(outcomes):
-        if i < len(baseline) and baseline[i] != "pass":
+        if i < len(baseline) and baseline[i] not in _USABLE:
             continue  # the original does not pass this case: it cannot detect anything
         if o.verdict == "fail":
             failed.append(o.case)
@@ -466,7 +472,7 @@ def run_mutation(
     run_wide = finalise([o for i in range(len(product_list)) for o in baselines[(i, paths)]], alpha)
     false_alarms: list[dict] = []
     for o in run_wide:
-        if o.verdict != "pass":
+        if o.verdict not in _USABLE:
             cls = next(c for c in product_list if c.__name__ == o.product)
             false_alarms.append({"product": o.product, "family": family_of(cls), "case": o.case,
                                  "verdict": o.verdict, "message": o.message, "paths": paths})
@@ -475,7 +481,7 @@ def run_mutation(
         originals[cls.__name__] = [o.to_dict() for o in baselines[(i, paths)]]
         for budget in dict.fromkeys((quick_paths, paths)):
             for o in baselines[(i, budget)]:
-                if o.verdict != "pass":
+                if o.verdict not in _USABLE:
                     excluded.append({"product": cls.__name__, "case": o.case, "paths": budget,
                                      "verdict": o.verdict, "message": o.message})
     settings["excluded_cases"] = excluded
