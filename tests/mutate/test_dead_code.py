@@ -53,3 +53,32 @@ def test_a_statement_that_defines_is_never_judged_dead(tmp_path):
     assert dead.mutated_lines(str(src), 1) is None  # the default k=2 is evaluated at import
     assert list(dead.mutated_lines(str(src), 2)) == [2]  # the header of the if, not its body
     assert list(dead.mutated_lines(str(src), 4)) == [3, 4]  # the whole return statement
+
+
+def test_two_models_with_the_same_repr_do_not_share_a_comparison(tmp_path):
+    """A correlation matrix is shown as 'matrix' in a model's repr: the reuse is keyed by the
+    model's whole state, so a comparison under one matrix is never served for another."""
+    import numpy as np
+
+    from limitcase.models import MultiBlackScholes
+
+    a = MultiBlackScholes(spots=(100.0, 95.0, 105.0), vols=0.2,
+                          correlation=np.array([[1, 0.5, 0.2], [0.5, 1, 0.3], [0.2, 0.3, 1.0]]))
+    b = MultiBlackScholes(spots=(100.0, 95.0, 105.0), vols=0.2,
+                          correlation=np.array([[1, 0.4, 0.2], [0.5 - 0.1, 1, 0.3], [0.2, 0.3, 1.0]]))
+    assert repr(a) == repr(b)
+    src = tmp_path / "m.py"
+    src.write_text("x = 1\ny = 2\n")
+    (cls,) = [c for c in load_products(()) if c.__name__ == "BasketCall"]
+    seen = []
+
+    def compare(original, mutant, model, paths, seed, key):
+        seen.append(model)
+        return len(seen)
+
+    p = cls()
+    dead._RESULTS.clear()
+    first = dead.reuse_or_compare(compare, p, p, a, 100, 1, 7, (str(src), 2))
+    again = dead.reuse_or_compare(compare, p, p, a, 100, 1, 7, (str(src), 2))
+    other = dead.reuse_or_compare(compare, p, p, b, 100, 1, 7, (str(src), 2))
+    assert first == again == 1 and other == 2 and seen == [a, b]

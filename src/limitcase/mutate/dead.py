@@ -21,7 +21,9 @@ when the module is imported, not while pricing) is never judged this way.
 from __future__ import annotations
 
 import ast
+import hashlib
 import os
+import pickle
 import sys
 from typing import Any, Callable
 
@@ -120,8 +122,12 @@ def reuse_or_compare(compare: Callable[..., Any], original: Product, mutant: Pro
     stmt = mutated_lines(*site) if site is not None else None
     if stmt is None:
         return compare(original, mutant, model, paths, seed, key)
-    ck = (type(original), repr(sorted(original.params().items())), type(model), repr(model), int(paths), seed,
-          int(key), _real(site[0]))
+    try:  # the model's whole state: a label or repr may abbreviate (a correlation matrix, a surface)
+        state = hashlib.sha256(pickle.dumps((type(model), model), protocol=pickle.HIGHEST_PROTOCOL)).hexdigest()
+    except Exception:  # a model that cannot be pickled: no reuse
+        return compare(original, mutant, model, paths, seed, key)
+    ck = (type(original), repr(sorted(original.params().items())), state, int(paths), repr(seed), int(key),
+          _real(site[0]))
     hit = _RESULTS.get(ck)
     if hit is None:
         twin = type(original)(**original.params())

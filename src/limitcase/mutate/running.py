@@ -333,7 +333,14 @@ def run_mutation(
     from ..sizing import enforce, estimate_mutation
 
     counts = collections.Counter(m.original for m in mutants)
-    size = estimate_mutation([(cls, checks_for(cls, model), counts[cls]) for cls in product_list], paths=paths,
+
+    def sized(cls: type[Product]) -> list:
+        try:
+            return checks_for(cls, model)
+        except Exception:  # reported by the product's own run, as before; it costs nothing here
+            return []
+
+    size = estimate_mutation([(cls, sized(cls), counts[cls]) for cls in product_list], paths=paths,
                              quick_paths=quick_paths, equivalence_paths=equivalence_paths, workers=workers)
     note = enforce(size, allow_long_run=allow_long_run,
                    option="--allow-long-run (allow_long_run=True)")
