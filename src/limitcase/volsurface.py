@@ -59,6 +59,10 @@ ARBITRAGE_TOL = 1e-9
 """Slack in the arbitrage tests, far below any fitting error: a surface is refused when
 ``g(k) < -ARBITRAGE_TOL`` or total variance drops by more than this between expiries."""
 
+FAR_HORIZON = 100.0
+"""Years up to which a surface's extrapolation past its last expiry is checked for a local
+volatility (with 100 times the last expiry when that is longer)."""
+
 
 class SurfaceArbitrage(InputError):
     """The implied-volatility surface admits static arbitrage (the message says where)."""
@@ -249,10 +253,25 @@ class VarianceSurface:
         i = j - 1
         return i, j, float((t - ts[i]) / (ts[j] - ts[i]))
 
+    def _beyond(self, t: float) -> float:
+        """Time past the last expiry (0 before it)."""
+        return max(0.0, float(t) - float(self.expiries[-1]))
+
+    def _rate_beyond(self) -> float:
+        """The at-the-money total-variance rate the surface grows at past its last expiry."""
+        return float(self.slices[-1].w(np.zeros(1))[0]) / float(self.expiries[-1])
+
     def total_variance(self, k: np.ndarray, t: float) -> np.ndarray:
-        """``w(k, t)``: linear in ``t`` between expiries, flat implied vol outside."""
+        """``w(k, t)``: linear in ``t`` between expiries; before the first expiry the first
+        slice scaled (flat implied vol); past the last one the last slice plus the
+        at-the-money variance rate times the time beyond it (the skew is not scaled up: a
+        slice scaled by a large factor has butterfly arbitrage, Durrleman's condition
+        failing as the squared slope grows)."""
         i, j, x = self._bracket(t)
         if i == j:
+            past = self._beyond(t)
+            if past > 0.0:
+                return self.slices[i].w(k) + self._rate_beyond() * past
             return self.slices[i].w(k) * (t / self.expiries[i])
         return (1 - x) * self.slices[i].w(k) + x * self.slices[j].w(k)
 
@@ -260,6 +279,8 @@ class VarianceSurface:
         """``dw/dk (k, t)``, the skew of total variance, interpolated like :meth:`total_variance`."""
         i, j, x = self._bracket(t)
         if i == j:
+            if self._beyond(t) > 0.0:
+                return self.slices[i].dw(k)
             return self.slices[i].dw(k) * (t / self.expiries[i])
         return (1 - x) * self.slices[i].dw(k) + x * self.slices[j].dw(k)
 
@@ -275,7 +296,11 @@ class VarianceSurface:
         k = np.clip(np.asarray(k, dtype=float), *self.k_range)
         i, j, x = self._bracket(t)
         si, sj = self.slices[i], self.slices[j]
-        if i == j:
+        if i == j and self._beyond(t) > 0.0:
+            rate = self._rate_beyond()
+            w, w1, w2 = si.w(k) + rate * self._beyond(t), si.dw(k), si.d2w(k)
+            wt = np.full_like(w, rate)
+        elif i == j:
             f = t / self.expiries[i]
             w, w1, w2 = si.w(k) * f, si.dw(k) * f, si.d2w(k) * f
             wt = si.w(k) / self.expiries[i]
@@ -328,7 +353,9 @@ class VarianceSurface:
         ts = np.concatenate([[0.0], self.expiries])
         for a, b in zip(ts[:-1], ts[1:]):
             yield from (a + (b - a) * np.array([0.05, 0.5, 0.95])).tolist()
-        yield float(self.expiries[-1]) * 1.5
+        last = float(self.expiries[-1])
+        yield from (last * f for f in (1.5, 3.0, 10.0, 30.0))
+        yield max(FAR_HORIZON, 100.0 * last)
 
     def __repr__(self) -> str:
         src = f" from {self.source}" if self.source else ""
