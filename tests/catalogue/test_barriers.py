@@ -134,8 +134,16 @@ def whole_life_variance(self, obs):
     return _settle(self, obs, _bridged(self, obs, np.sum(obs.step_var), first=0))
 
 
+def touch_strict(self, obs):
+    """A fixing exactly on the barrier does not touch it (S > H for an up barrier instead of
+    S >= H): the comparison's strictness swapped, visible only on a fixing at the level."""
+    nudged = self.barrier * (1.0 + 1e-12) if self.up else self.barrier * (1.0 - 1e-12)
+    return super(type(self), self.replace(barrier=nudged)).payoff(obs)
+
+
 BUGS = {
     "discrete_out": {
+        "tie_at_barrier": touch_strict,
         "barrier_out_of_reach": wrong_side,
         "touched_today": only_at_maturity,
         "touched_today_rebate_paid_now": rebate_at_expiry_always,
@@ -147,6 +155,7 @@ BUGS = {
         "closed_form": best_fixing,
     },
     "discrete_in": {
+        "tie_at_barrier": touch_strict,
         "barrier_out_of_reach": rebate_dropped,
         "touched_today": only_at_maturity,
         "in_plus_out_is_vanilla": only_at_maturity,

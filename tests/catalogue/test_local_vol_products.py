@@ -14,7 +14,8 @@ from limitcase.testing import assert_all_pass, assert_caught
 from limitcase_payoffs.local_vol import LocalVolDownAndOutCall
 from limitcase_payoffs.vanilla import EuropeanCall
 
-from test_barriers import best_fixing, in_out_swapped, misses_last_date, only_at_maturity, rebate_at_expiry_always, wrong_side
+from test_barriers import (best_fixing, in_out_swapped, misses_last_date, only_at_maturity, rebate_at_expiry_always,
+                           touch_strict, wrong_side)
 
 BUGS = {
     "barrier_out_of_reach": wrong_side,
@@ -24,6 +25,7 @@ BUGS = {
     "in_plus_out_with_rebates": misses_last_date,
     "worth_more_as_barrier_moves_away": in_out_swapped,
     "at_most_vanilla": best_fixing,
+    "tie_at_barrier": touch_strict,
 }
 
 

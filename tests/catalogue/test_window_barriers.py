@@ -88,6 +88,12 @@ def rebate_always(self, obs):
     return _settle(self, obs, _window(self, obs), rebate=0.0) + self.rebate
 
 
+def touch_strict(self, obs):
+    """A fixing exactly on the barrier does not touch it (S > H for an up barrier instead of S >= H)."""
+    nudged = self.barrier * (1.0 + 1e-12) if self.up else self.barrier * (1.0 - 1e-12)
+    return super(type(self), self.replace(barrier=nudged)).payoff(obs)
+
+
 BUGS = {
     "empty_window": window_ignored,
     "barrier_out_of_reach": None,  # per kind below
@@ -98,6 +104,7 @@ BUGS = {
     "whole_life_window_is_full_barrier": strict_window_end,
     "in_plus_out_is_vanilla": window_ignored,
     "at_most_vanilla": vanilla_absolute,
+    "tie_at_barrier": touch_strict,
 }
 
 
