@@ -87,8 +87,7 @@ def test_the_command_warns_above_an_hour_and_refuses_above_a_week(tmp_path, monk
     monkeypatch.setattr(sizing, "RUN_WARN_SECONDS", 0.0)
     r = CliRunner().invoke(main, ["check", str(tmp_path), "--paths", "1000", "--workers", "1"])
     assert r.exit_code == 0, r.output
-    # its one check, and the same at its interior point
-    assert "warning: a long run: 2 checks at 1,000 paths each are estimated at" in r.stderr
+    assert "warning: a long run: 2 checks at 1,000 paths each are estimated at" in r.stderr  # the case and its interior point
     assert GOOD_ROW.search(r.output)
     monkeypatch.setattr(sizing, "RUN_REFUSE_SECONDS", 0.0)
     r = CliRunner().invoke(main, ["check", str(tmp_path), "--paths", "1000", "--workers", "1"])

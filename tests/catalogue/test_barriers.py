@@ -134,16 +134,16 @@ def whole_life_variance(self, obs):
     return _settle(self, obs, _bridged(self, obs, np.sum(obs.step_var), first=0))
 
 
-def tie_counts_as_untouched(self, obs):
-    """A fixing exactly on the barrier does not touch it (<= written for <, >= for >)."""
-    s = _with_today(obs)
-    return np.cumprod((s <= self.barrier if self.up else s >= self.barrier).astype(float), axis=1)
+def touch_strict(self, obs):
+    """A fixing exactly on the barrier does not touch it (S > H for an up barrier instead of
+    S >= H): the comparison's strictness swapped, visible only on a fixing at the level."""
+    nudged = self.barrier * (1.0 + 1e-12) if self.up else self.barrier * (1.0 - 1e-12)
+    return super(type(self), self.replace(barrier=nudged)).payoff(obs)
 
-
-tie_counts_as_untouched.attr = "untouched"  # replaces the product's untouched(), not its payoff
 
 BUGS = {
     "discrete_out": {
+        "tie_at_barrier": touch_strict,
         "barrier_out_of_reach": wrong_side,
         "touched_today": only_at_maturity,
         "touched_today_rebate_paid_now": rebate_at_expiry_always,
@@ -153,9 +153,9 @@ BUGS = {
         "at_most_vanilla": best_fixing,
         "at_least_continuous": bgk_wrong_sign,
         "closed_form": best_fixing,
-        "tie_at_barrier": tie_counts_as_untouched,
     },
     "discrete_in": {
+        "tie_at_barrier": touch_strict,
         "barrier_out_of_reach": rebate_dropped,
         "touched_today": only_at_maturity,
         "in_plus_out_is_vanilla": only_at_maturity,
@@ -164,7 +164,6 @@ BUGS = {
         "at_most_vanilla": best_fixing,
         "at_most_continuous": bgk_wrong_sign,
         "closed_form": best_fixing,
-        "tie_at_barrier": tie_counts_as_untouched,
     },
     "continuous_out": {
         "barrier_out_of_reach": wrong_side,
@@ -201,7 +200,7 @@ def _group(cls):
 
 
 def _twin(cls, bug):
-    return type(f"{cls.__name__}_{bug.__name__}", (cls,), {getattr(bug, "attr", "payoff"): bug, "__doc__": bug.__doc__})
+    return type(f"{cls.__name__}_{bug.__name__}", (cls,), {"payoff": bug, "__doc__": bug.__doc__})
 
 
 TWINS = [(cls, case, bug) for cls in CLASSES for case, bug in BUGS[_group(cls)].items()]

@@ -15,7 +15,7 @@ from limitcase_payoffs.local_vol import LocalVolDownAndOutCall
 from limitcase_payoffs.vanilla import EuropeanCall
 
 from test_barriers import (best_fixing, in_out_swapped, misses_last_date, only_at_maturity, rebate_at_expiry_always,
-                           tie_counts_as_untouched, wrong_side)
+                           touch_strict, wrong_side)
 
 BUGS = {
     "barrier_out_of_reach": wrong_side,
@@ -26,7 +26,7 @@ BUGS = {
     "worth_more_as_barrier_moves_away": in_out_swapped,
     "at_most_vanilla": best_fixing,
     "closed_form": only_at_maturity,
-    "tie_at_barrier": tie_counts_as_untouched,
+    "tie_at_barrier": touch_strict,
 }
 
 

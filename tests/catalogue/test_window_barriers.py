@@ -88,19 +88,14 @@ def rebate_always(self, obs):
     return _settle(self, obs, _window(self, obs), rebate=0.0) + self.rebate
 
 
-def strict_touch(self, obs):
-    """A fixing exactly on the barrier does not count as touching it (> written for >=)."""
-    s = np.column_stack([np.full(obs.paths, obs.s0), obs.s])
-    past = (s > self.barrier) if self.up else (s < self.barrier)
-    alive = ~np.any(past & _window(self, obs), axis=1)
-    s_end = obs.s[:, -1]
-    vanilla = np.maximum(s_end - self.strike, 0.0) if self.up else np.maximum(self.strike - s_end, 0.0)
-    return np.where(alive, vanilla, self.rebate) if self.out else np.where(alive, self.rebate, vanilla)
+def touch_strict(self, obs):
+    """A fixing exactly on the barrier does not touch it (S > H for an up barrier instead of S >= H)."""
+    nudged = self.barrier * (1.0 + 1e-12) if self.up else self.barrier * (1.0 - 1e-12)
+    return super(type(self), self.replace(barrier=nudged)).payoff(obs)
 
 
 BUGS = {
     "empty_window": window_ignored,
-    "tie_at_barrier": strict_touch,
     "barrier_out_of_reach": None,  # per kind below
     "touched_today": today_not_watched,
     "closed_form": window_ignored,
@@ -109,6 +104,7 @@ BUGS = {
     "whole_life_window_is_full_barrier": strict_window_end,
     "in_plus_out_is_vanilla": window_ignored,
     "at_most_vanilla": vanilla_absolute,
+    "tie_at_barrier": touch_strict,
 }
 
 

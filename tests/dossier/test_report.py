@@ -83,7 +83,7 @@ def test_verdicts_match_check_with_the_same_settings(dossier, tmp_path):
     _, _, doc = dossier
     json_path = tmp_path / "check.json"
     # the classes --select kept, by name (check's --select works on product/case)
-    # the dossier documents the declared checks: check without interior points runs the same family
+    # the dossier shows the declared checks, not check's interior points
     r = CliRunner().invoke(main, ["check", str(FORMULAS), "--paths", "4096", "--json", str(json_path),
                                   "--select", "WithFormula/", "--inner-points", "0"])
     cases = [c for c in json.loads(json_path.read_text())["cases"] if c["kind"] != "audit"]  # check's model audits

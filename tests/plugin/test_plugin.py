@@ -82,8 +82,9 @@ def test_sample_project_run_collects_items_fails_the_broken_one_and_matches_chec
                           "TeamBrokenAsianCall::one_fixing"}
     # the same cases through `limitcase check`, same paths and seed: one run, Holm over the 3
     json_path = project.path / "check.json"
+    # the plugin runs the declared checks: check without its interior points is the same family
     r = CliRunner().invoke(main, ["check", str(project.path / "payoffs"), "--paths", "8192",
-                                  "--inner-points", "0", "--json", str(json_path)])  # the declared checks, as collected
+                                  "--json", str(json_path), "--inner-points", "0"])
     assert r.exit_code == 1, r.output
     everything = json.loads(json_path.read_text())["cases"]
     cases = [c for c in everything if c["kind"] != "audit"]  # the run's model audit: in both families
