@@ -30,7 +30,7 @@ from .checks import Check
 from .models.base import Model
 from .models.heston import Heston
 from .product import Product
-from .settings import SECOND_MODEL_WARP
+from .settings import SECOND_MODEL_PATH_SHARE, SECOND_MODEL_WARP
 
 __all__ = ["SECOND_SUFFIX", "warp_dates", "warped", "second_model_for", "second_model_checks"]
 
@@ -133,6 +133,6 @@ def second_model_checks(checks: Sequence[Check]) -> list[Check]:
         out.append(dataclasses.replace(
             check, case=check.case + SECOND_SUFFIX, legs=legs, model=heston, weights=tuple(rule.weights),
             target=0.0, sense="==", allowance=0.0, allowance_reason="",
-            target_source=f"the same identity under {heston.label()} on warped dates",
+            target_source=f"the same identity under {heston.label()} on warped dates", path_share=SECOND_MODEL_PATH_SHARE,
             note=(check.note + "; " if check.note else "") + "under Heston, dates warped"))
     return out

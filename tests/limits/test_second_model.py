@@ -61,6 +61,15 @@ def test_cases_run_under_heston():
     assert all(c.case.endswith(SECOND_SUFFIX) for c in checks)
 
 
+def test_cases_run_on_a_share_of_the_paths():
+    """A path-by-path identity needs few paths: the second model's cases run on an eighth."""
+    from limitcase.settings import SECOND_MODEL_PATH_SHARE
+
+    check = second_model_checks([c for c in checks_for(UpAndOutCall) if c.case == "in_plus_out_is_vanilla"])
+    out = run_checks(check, paths=16_384, seed=20261201).outcomes[0]
+    assert out.verdict == "pass" and out.paths == round(16_384 * SECOND_MODEL_PATH_SHARE) == 2048
+
+
 def test_planted_even_dates_bug_is_caught_only_by_the_second_model():
     plain = [c for c in checks_for(TimeWeightedAsianCall) if c.case == "put_call_parity"]
     assert run_checks(plain, paths=PATHS, seed=20261201).ok  # invisible on even dates
