@@ -28,6 +28,7 @@ from .equivalence import (
     EQUIVALENCE_PATHS, Equivalence, PointDifference, check_points, equivalence, probe_difference,
 )
 from .mutants import Discarded, Mutant, make_mutants
+from .same_checks import forget_originals, mutant_checks
 from .operators import OPERATORS
 from .encoding import json_safe
 from .scores import MutantResult, MutationReport, ProductScore, family_of, product_scores
@@ -75,16 +76,30 @@ def _checks_of(cls: type[Product]) -> list:
     the same points)."""
     found = _CHECKS.get(cls)
     if found is None:
-        model = _REGISTRY.get("model")
-        s = _REGISTRY.get("settings") or {}
-        found = checks_for(cls, model)
-        points = int(s.get("inner_points", DEFAULT_INNER_POINTS))
-        if points > 0:
-            broken = sorted({c.case for c in found if c.error is not None})
-            found = found + interior_checks(cls, model, seed=s["seed"], points=points, skip_cases=broken)
+        mutant = _mutant_of(cls)
+        found = _build_checks(cls) if mutant is None else mutant_checks(mutant, _build_checks)
         _CHECKS.clear()
         _CHECKS[cls] = found
     return found
+
+
+def _build_checks(cls: type[Product]) -> list:
+    model = _REGISTRY.get("model")
+    s = _REGISTRY.get("settings") or {}
+    found = checks_for(cls, model)
+    points = int(s.get("inner_points", DEFAULT_INNER_POINTS))
+    if points > 0:
+        broken = sorted({c.case for c in found if c.error is not None})
+        found = found + interior_checks(cls, model, seed=s["seed"], points=points, skip_cases=broken)
+    return found
+
+
+def _mutant_of(cls: type[Product]) -> Mutant | None:
+    """The run's mutant whose class is ``cls`` (``None`` for an original)."""
+    index = _REGISTRY.get("mutant_of")
+    if index is None:
+        index = _REGISTRY["mutant_of"] = {m.cls: m for m in _REGISTRY.get("mutants", ())}
+    return index.get(cls)
 
 
 def _run_each(cls: type[Product], paths: int, s: dict, order: Sequence[int] | None = None,
@@ -358,6 +373,7 @@ def run_mutation(
     settings["estimated_seconds"] = round(size.seconds, 1)
     _REGISTRY.clear()
     _CHECKS.clear()
+    forget_originals()
     _REGISTRY.update(products=product_list, mutants=mutants, settings=settings, model=model)
     index_of = {cls: i for i, cls in enumerate(product_list)}
     budgets = tuple(dict.fromkeys((quick_paths, paths)))
@@ -467,6 +483,7 @@ def run_mutation(
         pool.close()
         _REGISTRY.clear()
         _CHECKS.clear()
+        forget_originals()
 
     results: list[MutantResult] = []
     for k, m in enumerate(mutants):
