@@ -136,10 +136,15 @@ def estimate_mutation(per_product: Sequence[tuple[type, Sequence[Any], int]], *,
     rule, each term an upper bound but the last (a mutant's checks stop at the first one
     certain to fail; its comparison at the first point where it differs):
 
-    - the unmutated product's checks at ``quick_paths`` and at ``paths``;
-    - per mutant, the comparison with the original on ``equivalence_paths`` at every point
-      of the checks (each leg that is the product itself, plus its defaults: two legs on
-      the leg's dates), then its checks at ``quick_paths``;
+    - the unmutated product's checks at ``quick_paths``; at ``paths`` with the weight
+      ``min(1, mutants x MUTATE_SURVIVOR_SHARE)`` (an original runs again at the full
+      budget only once one of its mutants survives the first pass);
+    - per point of the checks (each leg that is the product itself), once: its paths
+      simulated on ``equivalence_paths`` and the original priced on them (the leg's dates
+      x (normals + 1)); these are shared by the product's mutants
+      (:mod:`limitcase.mutate.shared`);
+    - per mutant, the comparison with the original at every such point (the mutant priced:
+      the leg's dates, once), then its checks at ``quick_paths``;
     - per mutant, a share :data:`~limitcase.settings.MUTATE_SURVIVOR_SHARE` of its checks
       at ``paths`` (the survivors of the first pass run again at the full budget).
     """
@@ -147,7 +152,7 @@ def estimate_mutation(per_product: Sequence[tuple[type, Sequence[Any], int]], *,
     for cls, checks, count in per_product:
         w_quick, p1, n1 = _checks_work(checks, quick_paths, regression_paths)
         w_full, p2, _ = _checks_work(checks, paths, regression_paths)
-        eq = 0.0
+        eq_once, eq = 0.0, 0.0
         for check in checks:
             u = _check_units(check, regression_paths)
             if u is None:
@@ -155,11 +160,13 @@ def estimate_mutation(per_product: Sequence[tuple[type, Sequence[Any], int]], *,
             for leg in check.legs:
                 if type(leg) is cls:
                     try:
-                        eq += float(equivalence_paths) * len(leg.validated_dates()) * (
-                            int(check.model.normals_per_step()) + 2)
+                        dates = float(equivalence_paths) * len(leg.validated_dates())
+                        eq_once += dates * (int(check.model.normals_per_step()) + 1)
+                        eq += dates
                     except Exception:
                         continue
-        work += w_quick + w_full + count * (w_quick + eq + MUTATE_SURVIVOR_SHARE * w_full)
+        full_share = min(1.0, count * MUTATE_SURVIVOR_SHARE)
+        work += w_quick + full_share * w_full + eq_once + count * (w_quick + eq + MUTATE_SURVIVOR_SHARE * w_full)
         peak, sized, mutants = max(peak, p1, p2), sized + n1, mutants + int(count)
     what = (f"{mutants:,} mutant{'s' if mutants != 1 else ''} of {len(per_product)} product"
             f"{'s' if len(per_product) != 1 else ''} ({sized} checks of the originals; first pass at "

@@ -30,10 +30,12 @@ def test_the_mutation_estimate_is_the_documented_rule():
     per = 1 * (1 + 2)  # dates x (normals + legs)
     size = estimate_mutation([(cls, checks, 10)], paths=100_000, quick_paths=10_000, equivalence_paths=4096,
                              workers=2)
-    originals = 10_000 * per + 100_000 * per
-    eq = 4096 * 1 * (1 + 2)  # one point where a leg is the product itself, two legs compared
+    # the full-budget original only once a mutant survives: weight min(1, 10 x share)
+    originals = 10_000 * per + min(1.0, 10 * MUTATE_SURVIVOR_SHARE) * 100_000 * per
+    point = 4096 * 1 * (1 + 1)  # one point where a leg is the product itself: paths and the original, once
+    eq = 4096 * 1  # each mutant priced on that point's shared paths
     mutants = 10 * (10_000 * per + eq + MUTATE_SURVIVOR_SHARE * 100_000 * per)
-    assert size.work == pytest.approx(originals + mutants)
+    assert size.work == pytest.approx(originals + point + mutants)
     assert size.seconds == pytest.approx(size.work / PATH_DATES_PER_SECOND / 2)
     assert size.describe().startswith("10 mutants of 1 product (1 checks of the originals; first pass at 10,000 "
                                       "paths, survivors at 100,000) are estimated at")
@@ -56,7 +58,7 @@ def test_a_mutation_run_above_the_limit_is_refused_before_any_work_unless_allowe
     (tmp_path / "good.py").write_text(GOOD)  # a mutant is made from its module's source file
     (cls,) = load_products([str(tmp_path / "good.py")])
     with pytest.raises(ParamError) as err:
-        run_mutation([cls], paths=10**13, quick_paths=1000, workers=1)
+        run_mutation([cls], paths=10**15, quick_paths=1000, workers=1)
     text = str(err.value)
     assert "run refused before it started" in text and "--allow-long-run" in text
     assert f"{len(make_mutants(cls)[0])} mutants of 1 product" in text
