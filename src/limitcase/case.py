@@ -24,7 +24,7 @@ from .legs import Leg, grid_of, present_values
 from .models.base import Model, Simulated
 from .moments import MomentAccumulator, Moments, moment_summary
 from .product import Product
-from .sampling import MethodSpec, Sampler, make_sampler, parse_method, resolve_method
+from .sampling import MethodSpec, Sampler, block_rows, make_sampler, normals_buffer, parse_method, resolve_method
 from .settings import CASE_WORDS_PER_DATE, DEFAULT_REGRESSION_PATHS, ENGINE_METHOD, MAX_CASE_BYTES
 from .streams import (
     BLOCK,
@@ -182,7 +182,7 @@ class Case:
             buf = self.buffer()
             for b in range(CONTROL_PILOT_BLOCKS):
                 g = block_generator(self.seed, self.key, ROLE_CONTROL_PILOT, b)
-                z = buf[:BLOCK]
+                z = block_rows(buf, BLOCK)
                 g.standard_normal(out=z)
                 x = self._values(policies, z, g)
                 acc.add(moment_summary(x, x.shape[0]))
@@ -192,8 +192,9 @@ class Case:
 
     # -- blocks --------------------------------------------------------------------------
     def buffer(self, size: int = BLOCK) -> np.ndarray:
-        """A normals buffer for blocks of up to ``size`` paths, to reuse across blocks."""
-        return np.empty((size, len(self.grid), self.k))
+        """A normals buffer for blocks of up to ``size`` paths, to reuse across blocks
+        (``(size, dates, k)`` laid out dates first: :func:`~limitcase.sampling.normals_buffer`)."""
+        return normals_buffer(size, len(self.grid), self.k)
 
     _buffer = buffer  # the name before the engine was split
 
@@ -225,7 +226,7 @@ class Case:
             if size <= 0:
                 break
             g = block_generator(self.seed, self.key, ROLE_PATHS, b)
-            z = buf[:size]
+            z = block_rows(buf, size)
             self.sampler.draw(g, z, b)
             x = self._values(setup.policies, z, g)
             tallies: tuple[tuple[int, float, int], ...] = ()
