@@ -210,7 +210,7 @@ class Case:
                 shared.append(g.random((size, n_grid, sim.s.shape[2])))
             return shared[0]
 
-        x = np.empty((size, len(self.legs)))
+        x = np.empty((len(self.legs), size)).T  # (paths, legs), each leg's values contiguous
         for i, leg in enumerate(self.legs):
             x[:, i] = present_values(leg, leg.observe(sim, rate, uniforms), rate, policies[i])
         return x
@@ -234,7 +234,7 @@ class Case:
                 res = [PathRuleResult(rule) for rule in self.rules]
                 _check_rules(res, x[:, : self.n_legs], b * BLOCK)
                 tallies = tuple((r.violations, r.worst, r.worst_path) for r in res)
-            paying = tuple(int(c) for c in np.count_nonzero(x[:, : self.n_legs], axis=0))
+            paying = tuple(int(np.count_nonzero(x[:, i])) for i in range(self.n_legs))
             out.append(BlockResult(b, size, self.sampler.summarise(x, b), tallies, paying))
         return out
 

