@@ -16,7 +16,7 @@ from ..errors import ModelError, ParamError
 from ..params import Param
 from .base import Model, Simulated
 
-__all__ = ["BlackScholes", "MultiBlackScholes", "accumulate_dates", "UNIFORM_STEP_RTOL", "LOG2E"]
+__all__ = ["BlackScholes", "MultiBlackScholes", "accumulate_dates", "UNIFORM_STEP_RTOL"]
 
 
 UNIFORM_STEP_RTOL = 1e-12
@@ -53,14 +53,6 @@ def accumulate_dates(x: np.ndarray) -> None:
         add(prev, row, out=row)
 
 
-LOG2E = 1.0 / math.log(2.0)
-"""Log-prices are accumulated in base 2 and exponentiated by ``np.exp2``: the same prices
-(``2^(x log2 e) = e^x``; the factor folds into the per-date scale, drift and start, so no
-pass is added), and numpy's ``exp2`` over a block is faster than its ``exp`` where it has a
-vector loop for it (measured on the 2-core development machine, AVX-512: 0.70 ns against
-0.82 ns a number, on a block of 4096 x 52)."""
-
-
 def _constant(v: np.ndarray) -> bool:
     return bool(np.ptp(v) <= UNIFORM_STEP_RTOL * np.abs(v).max())
 
@@ -81,16 +73,16 @@ _PLAN_CACHE: dict[tuple, tuple] = {}
 
 
 def _gbm_plan(key: tuple, times: np.ndarray, vols: np.ndarray, mus: np.ndarray, log_spots: np.ndarray) -> tuple:
-    """Per-date scale and drift of the base-2 log-prices of geometric Brownian motions and
+    """Per-date scale and drift of the log-prices of geometric Brownian motions and
     their start, as :func:`_log_paths` takes them (scalars on equal steps with one asset);
     kept per model and grid (a block's arithmetic is then all on the paths)."""
     plan = _PLAN_CACHE.get(key)
     if plan is not None:
         return plan
     dt = np.diff(times, prepend=0.0)
-    scale = LOG2E * np.sqrt(dt)[:, None] * vols[None, :]
-    drift = LOG2E * (mus - 0.5 * vols**2)[None, :] * dt[:, None]
-    start: Any = LOG2E * log_spots
+    scale = np.sqrt(dt)[:, None] * vols[None, :]
+    drift = (mus - 0.5 * vols**2)[None, :] * dt[:, None]
+    start: Any = log_spots
     if vols.size == 1 and _constant(scale) and _constant(drift):
         plan = (float(scale.mean()), float(drift.mean()), float(start[0]), dt)
     else:
@@ -119,9 +111,11 @@ class BlackScholes(Model):
         vol, mu, spot = float(self.vol), float(self.rate - self.dividend), float(self.spot)
         key = (vol, mu, spot, times.tobytes())
         scale, drift, start, dt = _gbm_plan(key, times, np.array([vol]), np.array([mu]), np.array([math.log(spot)]))
-        # in place, on the caller's block: scale, drift, start, accumulate (base 2), exponentiate
+        # in place, on the caller's block: scale, drift, start, accumulate, exponentiate (with
+        # np.exp: np.log of its result gives back the log-price exactly, which a payoff taking
+        # the log of one fixing, a geometric average of one date, relies on; np.exp2 does not)
         _log_paths(z, scale, drift, start)
-        np.exp2(z, out=z)
+        np.exp(z, out=z)
         return Simulated(s=z, step_var=(vol**2 * dt)[None, :, None])
 
     def characteristic_function(self, u: Any, t: float) -> np.ndarray:
@@ -224,15 +218,31 @@ class MultiBlackScholes(Model):
     def _simulate(self, times: np.ndarray, z: np.ndarray, rng: np.random.Generator) -> Simulated:
         dt = np.diff(times, prepend=0.0)
         # correlate the Brownian increments across assets, keeping the block's layout
-        if z.flags.f_contiguous and not z.flags.c_contiguous:  # dates first
-            x = np.tensordot(self._chol, z.T, axes=(1, 0)).T
-        else:
-            x = z @ self._chol.T
+        x = _correlate(z, self._chol)
         key = (self.vols.tobytes(), (self.rate - self.dividends).tobytes(), self.spots.tobytes(), times.tobytes())
         scale, drift, start, _ = _gbm_plan(key, times, self.vols, self.rate - self.dividends, np.log(self.spots))
         _log_paths(x, scale, drift, start)
-        np.exp2(x, out=x)
+        np.exp(x, out=x)
         return Simulated(s=x, step_var=(dt[:, None] * self.vols[None, :] ** 2)[None])
+
+
+def _correlate(z: np.ndarray, chol: np.ndarray) -> np.ndarray:
+    """``z @ chol.T``: the correlated increments. On a block laid out dates first with few
+    assets, as whole-array multiplies and adds that keep the layout (and no threaded BLAS
+    call, which on a busy machine waits on its threads); otherwise a matrix product."""
+    k = chol.shape[0]
+    if not (z.flags.f_contiguous and not z.flags.c_contiguous) or k > 4:
+        return z @ chol.T
+    zt = z.T  # (assets, dates, paths), C-contiguous
+    xt = np.empty_like(zt)
+    tmp = np.empty_like(zt[0])
+    for a in range(k):
+        np.multiply(zt[0], chol[a, 0], out=xt[a])
+        for b in range(1, k):
+            if chol[a, b] != 0.0:
+                np.multiply(zt[b], chol[a, b], out=tmp)
+                xt[a] += tmp
+    return xt.T
 
 
 def _correlation_factor(c: np.ndarray, d: int) -> np.ndarray:
