@@ -7,6 +7,12 @@ The engine hands ``_simulate`` a block of standard normals ``z`` of shape
 model does not know) and a ``Generator`` for any other randomness it needs (jump counts).
 Keeping the source of randomness apart from the model is what lets the engine swap samplers
 and keep common random numbers across the products of one case.
+
+The engine's ``z`` is laid out dates first (Fortran order, the transpose of a C-contiguous
+``(normals_per_step, steps, paths)`` array: :func:`limitcase.sampling.normals_buffer`), so
+``z[:, j, i]`` (one date of one normal, every path) is contiguous: operate date by date on
+whole columns, or on the whole array. Index ``z`` rather than reshaping it (a reshape of a
+Fortran-ordered array may be a copy). Other callers (audits, tests) may pass any layout.
 """
 
 from __future__ import annotations
