@@ -397,7 +397,7 @@ def _remember(tag: tuple, z: np.ndarray) -> None:
     while _BLOCKS and _BLOCK_BYTES[0] + z.nbytes > BLOCK_CACHE_BYTES:
         _, old = _BLOCKS.popitem(last=False)
         _BLOCK_BYTES[0] -= old.nbytes
-    keep = z.copy()
+    keep = z.copy(order="K")  # the block's layout (dates first), so a hit is a straight copy
     keep.flags.writeable = False
     _BLOCKS[tag] = keep
     _BLOCK_BYTES[0] += keep.nbytes
@@ -514,7 +514,7 @@ class SobolBridge(Sampler):
             u = u.reshape(count * n, dim)
             u += _HALF_CELL
             ndtri(u, out=u)
-            z = np.empty((count * n, m, k))
+            z = normals_buffer(count * n, m, k)
             if m == 1:
                 z[...] = u.reshape(count * n, 1, k)
             else:
