@@ -8,11 +8,11 @@ block of the same shape, the floor any engine drawing one normal per path-step s
 Measurements alternate, several times, in CPU time of this process (a busy machine
 steals less of it than of the wall clock); the ratio is the median of adjacent pairs.
 A breakdown follows: the shares of one engine path-step spent drawing normals, in the
-model's exact GBM step (``models/gbm.py``: scale, drift, ``cumsum`` over dates, ``exp``),
+model's exact GBM step (``models/gbm.py``: scale, drift, the adds over dates, ``exp``),
 and in everything else (streams, payoff, discounting, cash-flow checks, moments).
 
 Usage: python benchmarks/throughput.py [--paths N] [--repeat R]
-Prints ``name: value`` lines; the last is ``ratio: X`` (target >= 0.7).
+Prints ``name: value`` lines; the last is ``ratio: X`` (target >= 0.8).
 """
 
 from __future__ import annotations
