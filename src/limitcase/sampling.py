@@ -228,7 +228,9 @@ class Sampler:
     accumulator that turns the summaries into :class:`Moments`.
 
     How to subclass: set ``method``, fill ``draw(g, z, block)`` (``z`` is the block's
-    ``(paths, dates, normals_per_step)`` array; ``g`` the block's generator), and override
+    ``(paths, dates, normals_per_step)`` array, laid out dates first: write it by indexing or
+    ``out=``, never through a reshape, which is a copy on that layout; ``g`` the block's
+    generator), and override
     ``round_paths``, ``summarise`` and ``accumulator`` when paths are not independent.
     """
 
@@ -272,7 +274,14 @@ class _Custom(Sampler):
         self.method = str(getattr(fn, "method", "custom"))
 
     def draw(self, g: np.random.Generator, z: np.ndarray, block: int) -> None:
-        self.fn(g, z, block)
+        # a user's function gets a C-contiguous block, as before the engine laid blocks out
+        # dates first: a write through a reshape of it (a copy on the other layout) still lands
+        if z.flags.c_contiguous:
+            self.fn(g, z, block)
+            return
+        tmp = np.empty(z.shape)
+        self.fn(g, tmp, block)
+        np.copyto(z, tmp)
 
 
 def as_sampler(obj: Any) -> Sampler:
