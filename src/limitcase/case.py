@@ -11,7 +11,7 @@ the numbers do not depend on who computed which block (see :mod:`limitcase.strea
 from __future__ import annotations
 
 from dataclasses import dataclass
-from typing import Any, Sequence
+from typing import Any, Callable, Sequence
 
 import numpy as np
 
@@ -160,22 +160,11 @@ class Case:
         """Fit Longstaff-Schwartz policies on their pilot and, with control variates, the
         covariances on the control pilot (both on streams of their own)."""
         policies: list[Any] = [None] * len(self.legs)
-        rate = self.model.short_rate
         if self.early:
-            pilot_sim = _simulate_blocks(self.model, self.grid, self.regression_paths, self.seed, self.key,
-                                         ROLE_REGRESSION_PILOT, self.k, _plain_normals)
-            pilot_u: list[np.ndarray] = []
-            seed, key = self.seed, self.key
-
-            def pilot_uniforms() -> np.ndarray:
-                if not pilot_u:
-                    g = block_generator(seed, key, ROLE_PILOT_UNIFORMS, 0)
-                    pilot_u.append(g.random(pilot_sim.s.shape))
-                return pilot_u[0]
-
+            pilot = self.pilot()
             for i, leg in enumerate(self.legs):
                 if leg.product.early_exercise:
-                    policies[i] = fit_policy(leg.product, leg.observe(pilot_sim, rate, pilot_uniforms), rate)
+                    policies[i] = self.fit(leg, pilot)
         pilot_cov = None
         if self.controls:
             acc = MomentAccumulator()
@@ -190,6 +179,27 @@ class Case:
             pilot_cov = m.cov  # per path
         return Setup(tuple(policies), pilot_cov)
 
+    def pilot(self) -> tuple[Simulated, Callable[[], np.ndarray]]:
+        """The Longstaff-Schwartz regression pilot: its simulated paths (streams of their
+        own) and the function giving its uniforms (drawn once, on first use)."""
+        pilot_sim = _simulate_blocks(self.model, self.grid, self.regression_paths, self.seed, self.key,
+                                     ROLE_REGRESSION_PILOT, self.k, _plain_normals)
+        pilot_u: list[np.ndarray] = []
+        seed, key = self.seed, self.key
+
+        def pilot_uniforms() -> np.ndarray:
+            if not pilot_u:
+                g = block_generator(seed, key, ROLE_PILOT_UNIFORMS, 0)
+                pilot_u.append(g.random(pilot_sim.s.shape))
+            return pilot_u[0]
+
+        return pilot_sim, pilot_uniforms
+
+    def fit(self, leg: Leg, pilot: tuple[Simulated, Callable[[], np.ndarray]]) -> Any:
+        """The exercise policy of an early-exercise ``leg`` fitted on ``pilot`` (:meth:`pilot`)."""
+        rate = self.model.short_rate
+        return fit_policy(leg.product, leg.observe(pilot[0], rate, pilot[1]), rate)
+
     # -- blocks --------------------------------------------------------------------------
     def buffer(self, size: int = BLOCK) -> np.ndarray:
         """A normals buffer for blocks of up to ``size`` paths, to reuse across blocks
@@ -198,22 +208,49 @@ class Case:
 
     _buffer = buffer  # the name before the engine was split
 
-    def _values(self, policies: Sequence[Any], z: np.ndarray, g: np.random.Generator) -> np.ndarray:
+    def _simulate(self, z: np.ndarray, g: np.random.Generator) -> tuple[Simulated, Callable[[], np.ndarray]]:
+        """The model's paths from the normals ``z`` (and whatever else the model draws from
+        ``g``), with the function giving the block's uniforms: drawn from ``g`` once, on
+        first use, after the model's own draws, for every leg."""
         sim = self.model.simulate(self.grid, z, g)
-        rate = self.model.short_rate
         size = z.shape[0]
         shared: list[np.ndarray] = []
         n_grid = len(self.grid)
 
-        def uniforms() -> np.ndarray:  # drawn once per block, on first use, for every leg
+        def uniforms() -> np.ndarray:
             if not shared:
                 shared.append(g.random((size, n_grid, sim.s.shape[2])))
             return shared[0]
 
-        x = np.empty((len(self.legs), size)).T  # (paths, legs), each leg's values contiguous
-        for i, leg in enumerate(self.legs):
-            x[:, i] = present_values(leg, leg.observe(sim, rate, uniforms), rate, policies[i])
+        return sim, uniforms
+
+    def simulated(self, b: int, size: int, buffer: np.ndarray | None = None
+                  ) -> tuple[Simulated, Callable[[], np.ndarray]]:
+        """Block ``b`` of the pricing paths (``size`` paths; normals drawn into ``buffer``,
+        a fresh one by default): what every leg of the block observes, for a caller that
+        prices further products on the same paths (the mutation run's comparisons). The
+        sampler must have been prepared for the run (:meth:`blocks` does it)."""
+        buf = buffer if buffer is not None else self.buffer(size)
+        g = block_generator(self.seed, self.key, ROLE_PATHS, b)
+        z = block_rows(buf, size)
+        self.sampler.draw(g, z, b)
+        return self._simulate(z, g)
+
+    def present(self, policies: Sequence[Any], sim: Simulated, uniforms: Callable[[], np.ndarray],
+                legs: Sequence[int] | None = None) -> np.ndarray:
+        """Present values per path of the legs ``legs`` (default: every leg, controls
+        included) on simulated paths: shape ``(paths, len(legs))``."""
+        rate = self.model.short_rate
+        which = range(len(self.legs)) if legs is None else legs
+        x = np.empty((len(which), sim.s.shape[0])).T  # (paths, legs), each leg's values contiguous
+        for j, i in enumerate(which):
+            leg = self.legs[i]
+            x[:, j] = present_values(leg, leg.observe(sim, rate, uniforms), rate, policies[i])
         return x
+
+    def _values(self, policies: Sequence[Any], z: np.ndarray, g: np.random.Generator) -> np.ndarray:
+        sim, uniforms = self._simulate(z, g)
+        return self.present(policies, sim, uniforms)
 
     def blocks(self, setup: Setup, first: int, last: int, paths: int,
                buffer: np.ndarray | None = None) -> list[BlockResult]:
@@ -225,18 +262,23 @@ class Case:
             size = min(BLOCK, paths - b * BLOCK)
             if size <= 0:
                 break
-            g = block_generator(self.seed, self.key, ROLE_PATHS, b)
-            z = block_rows(buf, size)
-            self.sampler.draw(g, z, b)
-            x = self._values(setup.policies, z, g)
-            tallies: tuple[tuple[int, float, int], ...] = ()
-            if self.rules:
-                res = [PathRuleResult(rule) for rule in self.rules]
-                _check_rules(res, x[:, : self.n_legs], b * BLOCK)
-                tallies = tuple((r.violations, r.worst, r.worst_path) for r in res)
-            paying = tuple(int(np.count_nonzero(x[:, i])) for i in range(self.n_legs))
-            out.append(BlockResult(b, size, self.sampler.summarise(x, b), tallies, paying))
+            sim, uniforms = self.simulated(b, size, buf)
+            out.append(self.block_result(b, self.present(setup.policies, sim, uniforms)))
         return out
+
+    def block_result(self, b: int, x: np.ndarray) -> BlockResult:
+        """Block ``b``'s summary from its present values ``x`` (paths x legs, controls
+        last): the sampler's statistics, the path rules' tallies, the paying paths."""
+        # the layout :meth:`present` gives (each leg's values contiguous), whoever built ``x``:
+        # the sums over paths then run in the same order, so the same numbers to the last bit
+        x = np.asfortranarray(x)
+        tallies: tuple[tuple[int, float, int], ...] = ()
+        if self.rules:
+            res = [PathRuleResult(rule) for rule in self.rules]
+            _check_rules(res, x[:, : self.n_legs], b * BLOCK)
+            tallies = tuple((r.violations, r.worst, r.worst_path) for r in res)
+        paying = tuple(int(np.count_nonzero(x[:, i])) for i in range(self.n_legs))
+        return BlockResult(b, x.shape[0], self.sampler.summarise(x, b), tallies, paying)
 
     def accumulator(self) -> "Accumulator":
         return Accumulator(self)

@@ -78,7 +78,8 @@ class Check:
     ``path_share`` is the share of the run's paths it is priced with (sized from the power it
     needs, :data:`limitcase.settings.INNER_PATH_SHARE`). ``direct``, when given, decides the
     check without Monte Carlo (a deterministic check on given paths, :mod:`limitcase.ties`):
-    it returns ``(ok, message, paths)``, ``ok`` None for nothing to decide (a skip)."""
+    it is called with the check's ``legs`` (so a check rebuilt on other legs decides on them)
+    and returns ``(ok, message, paths)``, ``ok`` None for nothing to decide (a skip)."""
 
     product: str
     case: str
@@ -97,7 +98,7 @@ class Check:
     skip: str | None = None
     origin: Origin | None = None
     path_share: float = 1.0
-    direct: "Callable[[], tuple[bool | None, str, int]] | None" = None
+    direct: "Callable[[tuple[Product, ...]], tuple[bool | None, str, int]] | None" = None
     allowance_weights: tuple[float, ...] = ()
     """When given, the allowance also includes ``|sum(allowance_weights * prices)|``, estimated on
     the same paths: an error bound the data give (an extrapolation's truncation error,

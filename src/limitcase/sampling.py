@@ -545,10 +545,12 @@ class SobolBridge(Sampler):
         chunk = self.block // r_count
         dim = m * k
         u = np.empty((n, dim))
-        for r in range(r_count):
-            entry = _sobol_engine(self.seed, dim, r, block * chunk)
-            u[r * c : (r + 1) * c] = entry[0].random(c)
-            entry[1] += c
+        with warnings.catch_warnings():  # scipy's note on balance at counts not powers of 2 (see above)
+            warnings.filterwarnings("ignore", message="The balance properties", category=UserWarning)
+            for r in range(r_count):
+                entry = _sobol_engine(self.seed, dim, r, block * chunk)
+                u[r * c : (r + 1) * c] = entry[0].random(c)
+                entry[1] += c
         u += _HALF_CELL  # cell midpoints: strictly inside (0, 1), so the inverse stays finite
         ndtri(u, out=u)
         if m == 1:  # one date: the bridge is the identity

@@ -44,6 +44,7 @@ __all__ = [
     "MUTATE_QUICK_PATHS",
     "MUTATE_EQUIVALENCE_PATHS",
     "MUTATE_EQUIVALENCE_REGRESSION_PATHS",
+    "MUTATE_SHARED_PATHS_BYTES",
     "REPRICE_MODEL",
     "REPRICE_WEIGHTING",
     "REPRICE_STARTS",
@@ -204,6 +205,12 @@ MUTATE_EQUIVALENCE_PATHS = 4 * BLOCK
 MUTATE_EQUIVALENCE_REGRESSION_PATHS = 2 * BLOCK
 """Pilot paths of the Longstaff-Schwartz fits in the equivalence runs (mutant and original
 are fitted on the same pilot, so identical exercise values give identical policies)."""
+
+MUTATE_SHARED_PATHS_BYTES = 768 * 2**20
+"""Bytes per process of simulated paths (and the original's present values on them) kept
+between the comparisons of the mutants of one point (:mod:`limitcase.mutate.shared`): a
+product's points at 16,384 paths are a few megabytes each on weekly dates, about 35 MB on
+daily dates over a year."""
 
 REPRICE_MODEL = "heston"
 """Model calibrated by ``reprice`` (``--model``)."""

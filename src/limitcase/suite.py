@@ -396,7 +396,7 @@ def direct_outcome(check: Check, seed: int) -> Outcome:
     base = dict(product=check.product, case=check.case, kind=check.kind, seed=seed, note=check.note,
                 target_source=check.target_source, legs=tuple(p.label() for p in check.legs))
     try:
-        ok, message, n = check.direct()
+        ok, message, n = check.direct(check.legs)
     except Exception as exc:  # the product's own code on the given paths
         return Outcome(verdict="error", message=_error_text(exc), **base)
     if ok is None:

@@ -90,8 +90,8 @@ class Tie(Relation):
             return [Check(product=name, case=self.case_name, kind="relation", legs=(product,),
                           skip="tie checks pin one asset's fixings; this product reads several")]
 
-        def direct() -> tuple[bool | None, str, int]:
-            return tie_result(product, model, self, side)
+        def direct(legs: tuple[Product, ...]) -> tuple[bool | None, str, int]:
+            return tie_result(legs[0], model, self, side)
 
         return [Check(product=name, case=self.case_name, kind="relation", legs=(product,), sense="==",
                       target_source=f"a fixing on {self.param} pays as just {side} it",

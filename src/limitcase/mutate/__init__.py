@@ -89,8 +89,11 @@ Layout
 :mod:`~limitcase.mutate.operators` (the slips), :mod:`~limitcase.mutate.mutants` (scope,
 mutations of one function, compiled mutant classes), :mod:`~limitcase.mutate.equivalence` (with :mod:`~limitcase.mutate.dead`: a mutant whose
 statement the original never runs on a point's paths reuses the original's comparison with
-itself, the same numbers bit for bit),
-:mod:`~limitcase.mutate.running` (the checks on the mutants, over the shared pool),
+itself, the same numbers bit for bit; and :mod:`~limitcase.mutate.shared`: the mutants of a
+point share its simulated paths and the original's present values on them),
+:mod:`~limitcase.mutate.running` (the checks on the mutants, over the shared pool; with
+:mod:`~limitcase.mutate.same_checks`: a mutant whose statement the check building never
+runs takes the original's checks with itself in the original's place),
 :mod:`~limitcase.mutate.advice` (what check would catch a survivor),
 :mod:`~limitcase.mutate.scores` (records and scores). Import from ``limitcase.mutate``.
 """

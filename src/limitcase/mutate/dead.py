@@ -30,7 +30,7 @@ from typing import Any, Callable
 from ..models.base import Model
 from ..product import Product
 
-__all__ = ["mutated_lines", "reuse_or_compare"]
+__all__ = ["mutated_lines", "reuse_or_compare", "traced"]
 
 _STATEMENTS: dict[str, list[tuple[int, int, int, bool]]] = {}
 """Per module file: ``(first line, last line, header end, defines)`` of every statement."""
@@ -83,7 +83,7 @@ def _real(path: str) -> str:
     return os.path.realpath(path)
 
 
-def _traced(file: str, fn: Callable[[], Any]) -> tuple[Any, frozenset[int]]:
+def traced(file: str, fn: Callable[[], Any]) -> tuple[Any, frozenset[int]]:
     """``fn()`` and the lines of ``file`` that executed during it (this thread)."""
     target = _real(file)
     seen: dict[str, bool] = {}
@@ -131,7 +131,7 @@ def reuse_or_compare(compare: Callable[..., Any], original: Product, mutant: Pro
     hit = _RESULTS.get(ck)
     if hit is None:
         twin = type(original)(**original.params())
-        hit = _traced(site[0], lambda: compare(original, twin, model, paths, seed, key))
+        hit = traced(site[0], lambda: compare(original, twin, model, paths, seed, key))
         if len(_RESULTS) >= MOST_KEPT:
             _RESULTS.clear()
         _RESULTS[ck] = hit

@@ -22,6 +22,7 @@ from ..reduce import Check, checks_for
 from ..settings import MUTATE_EQUIVALENCE_PATHS, MUTATE_EQUIVALENCE_REGRESSION_PATHS
 from ..suite import DEFAULT_SEED
 from .dead import reuse_or_compare
+from .shared import joint_with_original
 from .encoding import json_safe
 
 __all__ = [
@@ -277,7 +278,7 @@ def _random_compare(original: Product, mutant: Product, model: Model, paths: int
     try:
         with np.errstate(all="ignore"), warnings.catch_warnings():
             warnings.simplefilter("ignore")
-            joint = evaluate([mutant, original], model, rules=(TOLERANCE,), **kw)
+            joint = joint_with_original(mutant, original, model, rule=TOLERANCE, **kw)
     except Exception as exc:
         try:
             with np.errstate(all="ignore"), warnings.catch_warnings():

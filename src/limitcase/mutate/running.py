@@ -28,6 +28,7 @@ from .equivalence import (
     EQUIVALENCE_PATHS, Equivalence, PointDifference, check_points, equivalence, probe_difference,
 )
 from .mutants import Discarded, Mutant, make_mutants
+from .same_checks import forget_originals, mutant_checks
 from .operators import OPERATORS
 from .encoding import json_safe
 from .scores import MutantResult, MutationReport, ProductScore, family_of, product_scores
@@ -75,16 +76,30 @@ def _checks_of(cls: type[Product]) -> list:
     the same points)."""
     found = _CHECKS.get(cls)
     if found is None:
-        model = _REGISTRY.get("model")
-        s = _REGISTRY.get("settings") or {}
-        found = checks_for(cls, model)
-        points = int(s.get("inner_points", DEFAULT_INNER_POINTS))
-        if points > 0:
-            broken = sorted({c.case for c in found if c.error is not None})
-            found = found + interior_checks(cls, model, seed=s["seed"], points=points, skip_cases=broken)
+        mutant = _mutant_of(cls)
+        found = _build_checks(cls) if mutant is None else mutant_checks(mutant, _build_checks)
         _CHECKS.clear()
         _CHECKS[cls] = found
     return found
+
+
+def _build_checks(cls: type[Product]) -> list:
+    model = _REGISTRY.get("model")
+    s = _REGISTRY.get("settings") or {}
+    found = checks_for(cls, model)
+    points = int(s.get("inner_points", DEFAULT_INNER_POINTS))
+    if points > 0:
+        broken = sorted({c.case for c in found if c.error is not None})
+        found = found + interior_checks(cls, model, seed=s["seed"], points=points, skip_cases=broken)
+    return found
+
+
+def _mutant_of(cls: type[Product]) -> Mutant | None:
+    """The run's mutant whose class is ``cls`` (``None`` for an original)."""
+    index = _REGISTRY.get("mutant_of")
+    if index is None:
+        index = _REGISTRY["mutant_of"] = {m.cls: m for m in _REGISTRY.get("mutants", ())}
+    return index.get(cls)
 
 
 def _run_each(cls: type[Product], paths: int, s: dict, order: Sequence[int] | None = None,
@@ -249,9 +264,11 @@ def run_mutation(
     products
         Product classes (``limitcase.loader.load_products``).
     paths
-        Paths per check for the survivors of the first pass (and the original's own run).
+        Paths per check for the survivors of the first pass (and their original's own run,
+        made once a first mutant of that product survives the first pass).
     quick_paths
-        Paths per check in the first pass.
+        Paths per check in the first pass, and of every original's run (the first pass's
+        baseline).
     equivalence_paths
         Simulated paths per parameter point in the equivalence test.
     seed, alpha
@@ -295,8 +312,12 @@ def run_mutation(
     A mutant is judged as ``limitcase check`` judges a product run on its own: Holm's
     correction over that product's checks, at ``alpha``. The unmutated products are judged
     as ``limitcase check`` judges the whole run: Holm over every check of every product
-    (``false_alarms``); a case an original fails at its own per-product level cannot
-    detect that product's mutants and is listed in ``settings["excluded_cases"]``.
+    (``false_alarms``), each at the largest budget it ran at (``quick_paths``, or ``paths``
+    for the products listed in ``settings["originals_at_full_budget"]``; the catalogue at
+    the full budget is what ``limitcase check`` runs, and running it again here was the
+    largest single cost of a mutation run); a case an original fails at its own
+    per-product level cannot detect that product's mutants and is listed in
+    ``settings["excluded_cases"]``.
     """
     for name, value, low in (("paths", paths, 2), ("quick_paths", quick_paths, 2),
                              ("equivalence_paths", equivalence_paths, 2)):
@@ -352,13 +373,14 @@ def run_mutation(
     settings["estimated_seconds"] = round(size.seconds, 1)
     _REGISTRY.clear()
     _CHECKS.clear()
+    forget_originals()
     _REGISTRY.update(products=product_list, mutants=mutants, settings=settings, model=model)
     index_of = {cls: i for i, cls in enumerate(product_list)}
     budgets = tuple(dict.fromkeys((quick_paths, paths)))
     by_product: dict[int, list[int]] = collections.defaultdict(list)
     for k, m in enumerate(mutants):
         by_product[index_of[m.original]].append(k)
-    total = [len(budgets) * len(product_list) + len(mutants)]
+    total = [len(product_list) + len(mutants)]
     done = [0]
     baselines: dict[tuple[int, int], list[Outcome]] = {}
     cpu = {"making_mutants": time.process_time() - cpu0, "originals": 0.0, "equivalence": 0.0,
@@ -391,6 +413,10 @@ def run_mutation(
         i = index_of[mutants[k].original]
         return _task_mutant, (k, "full", verdicts(i, paths), order(i, paths)), limit(i, paths)
 
+    original_limit = None if time_limit is not None and math.isinf(time_limit) else (
+        float(time_limit) if time_limit is not None else ORIGINAL_TIME_LIMIT)
+    full_asked: set[int] = set()  # products whose original runs at the full budget
+
     def on_done(res: Any) -> list[tuple]:
         done[0] += 1
         new: list[tuple] = []
@@ -416,6 +442,10 @@ def run_mutation(
                     new.append(full_stage(k))
                 else:
                     waiting[i].append(k)
+                    if i not in full_asked:  # its original at the full budget, once, when first needed
+                        full_asked.add(i)
+                        total[0] += 1
+                        new.append((_task_original, (i, paths), original_limit))
         else:
             final[res["mid"]] = res
             cpu["equivalence"] += res["cpu_equivalence"]
@@ -439,10 +469,10 @@ def run_mutation(
                         "paths": quick_paths if stage == "first" else paths,
                         "cpu_equivalence": 0.0, "cpu_checks": 0.0})
 
-    # the originals' first-pass runs go first: each one releases its product's mutants
-    original_limit = None if time_limit is not None and math.isinf(time_limit) else (
-        float(time_limit) if time_limit is not None else ORIGINAL_TIME_LIMIT)
-    initial = [(_task_original, (i, b), original_limit) for b in budgets for i in range(len(product_list))]
+    # the originals' first-pass runs go first: each one releases its product's mutants; an
+    # original runs at the full budget only once one of its mutants survives the first pass
+    # (the survivors' baseline): the whole catalogue at the full budget is `limitcase check`
+    initial = [(_task_original, (i, quick_paths), original_limit) for i in range(len(product_list))]
     pool = open_pool(min(workers, max(1, len(mutants) + len(product_list))), tasks_hint=len(initial) + len(mutants),
                      inherit=((__name__, "_REGISTRY"),))
     settings["processes"] = pool.workers
@@ -453,6 +483,7 @@ def run_mutation(
         pool.close()
         _REGISTRY.clear()
         _CHECKS.clear()
+        forget_originals()
 
     results: list[MutantResult] = []
     for k, m in enumerate(mutants):
@@ -476,22 +507,25 @@ def run_mutation(
             off_checks=json_safe(asdict(off)) if off is not None else None,
         ))
     originals: dict[str, list[dict]] = {}
-    run_wide = finalise([o for i in range(len(product_list)) for o in baselines[(i, paths)]], alpha)
+    judged = {i: (paths if (i, paths) in baselines else quick_paths) for i in range(len(product_list))}
+    run_wide = finalise([o for i in range(len(product_list)) for o in baselines[(i, judged[i])]], alpha)
+    budget_of = {product_list[i].__name__: judged[i] for i in judged}
     false_alarms: list[dict] = []
     for o in run_wide:
         if o.verdict not in _USABLE:
             cls = next(c for c in product_list if c.__name__ == o.product)
             false_alarms.append({"product": o.product, "family": family_of(cls), "case": o.case,
-                                 "verdict": o.verdict, "message": o.message, "paths": paths})
+                                 "verdict": o.verdict, "message": o.message, "paths": budget_of[o.product]})
     excluded = []
     for cls, i in index_of.items():
-        originals[cls.__name__] = [o.to_dict() for o in baselines[(i, paths)]]
-        for budget in dict.fromkeys((quick_paths, paths)):
-            for o in baselines[(i, budget)]:
+        originals[cls.__name__] = [o.to_dict() for o in baselines[(i, judged[i])]]
+        for budget in budgets:
+            for o in baselines.get((i, budget), ()):
                 if o.verdict not in _USABLE:
                     excluded.append({"product": cls.__name__, "case": o.case, "paths": budget,
                                      "verdict": o.verdict, "message": o.message})
     settings["excluded_cases"] = excluded
+    settings["originals_at_full_budget"] = sorted(product_list[i].__name__ for i in judged if judged[i] == paths)
     settings["cpu_seconds"] = {k: round(v, 2) for k, v in cpu.items()}
     return MutationReport(
         results=results, discarded=discarded, originals=originals, false_alarms=false_alarms, settings=settings,

@@ -137,22 +137,22 @@ def render_summary(report: "MutationReport") -> str:
     cpu = s.get("cpu_seconds")
     if cpu:
         lines.append("CPU seconds: " + ", ".join(f"{k.replace('_', ' ')} {v:.1f}" for k, v in cpu.items()))
-    weak = [e for e in s.get("excluded_cases", []) if e["paths"] == s["paths"]]
+    weak = s.get("excluded_cases", [])
     if weak:
         lines.append(f"note: {len(weak)} case(s) fail on the unmutated product at its own level (Holm over its "
-                     f"checks, {s['paths']} paths) and cannot detect its mutants: "
-                     + ", ".join(f"{e['product']}/{e['case']}" for e in weak))
+                     "checks) and cannot detect its mutants: "
+                     + ", ".join(f"{e['product']}/{e['case']} ({e['paths']:,} paths)" for e in weak))
     hidden = sum(1 for r in report.results if _hidden(r))
     if hidden:
         lines.append(f"{hidden} equivalent mutant(s) pay differently off the check points: the checks never vary "
                      "what that code reads (listed above).")
     if report.false_alarms:
         lines.append("")
-        lines.append(f"FALSE ALARM: {len(report.false_alarms)} check(s) of the UNMUTATED products do not pass at "
-                     f"{s['paths']} paths (Holm over every check of the run, as 'limitcase check'): a false alarm "
-                     "of the checks or a bug in the product itself; either way it needs a look:")
+        lines.append(f"FALSE ALARM: {len(report.false_alarms)} check(s) of the UNMUTATED products do not pass "
+                     "(Holm over every check of the run, as 'limitcase check'): a false alarm of the checks or a "
+                     "bug in the product itself; either way it needs a look:")
         for a in report.false_alarms:
-            lines.append(f"  {a['product']}/{a['case']}: {a['verdict']} {a['message']}")
+            lines.append(f"  {a['product']}/{a['case']} ({a['paths']:,} paths): {a['verdict']} {a['message']}")
     return "\n".join(lines)
 
 
