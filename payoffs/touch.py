@@ -31,7 +31,7 @@ import numpy as np
 
 from dataclasses import dataclass
 
-from limitcase import Cashflows, Identity, Monotone, Param, Product, Reduction, Tie
+from limitcase import Cashflows, Identity, Monotone, Param, Product, Reduction, Tie, running
 from limitcase.reduce import Check, Relation
 from limitcase.references import discrete_barrier_by_quadrature
 from limitcase.references.schedules import equal_steps
@@ -99,7 +99,7 @@ class _Touch(Product):
         """1 while the barrier is not touched: today (column 0), then after each date."""
         s = np.column_stack([np.full(obs.paths, obs.s0), obs.s])
         stay = (s < self.barrier) if self.up else (s > self.barrier)
-        return np.cumprod(stay.astype(float), axis=1)
+        return running(np.multiply, stay.astype(float))  # np.cumprod over the dates
 
     def _one_touch_value(self, spot: float, rate: float, dividend: float, vol: float, at_hit: bool) -> float:
         touched_today = spot >= self.barrier if self.up else spot <= self.barrier

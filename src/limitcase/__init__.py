@@ -10,7 +10,7 @@ from .engine import BLOCK, Estimate, evaluate, price
 from .errors import DeclarationError, InputError, LimitcaseError, ModelError, NoReference, ParamError, PayoffError
 from .models import BlackScholes, Heston, Merton, Model, MultiBlackScholes
 from .params import Param
-from .product import Cashflows, Observed, Product
+from .product import Cashflows, Observed, Product, running
 from .reduce import Bound, Check, Convex, Identity, Monotone, Reduction, Relation, checks_for
 from .suite import RunResult, run_checks
 from .ties import Tie
@@ -48,6 +48,7 @@ __all__ = [
     "evaluate",
     "price",
     "run_checks",
+    "running",
 ]
 
 __version__ = "0.1.0"

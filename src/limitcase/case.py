@@ -24,7 +24,7 @@ from .legs import Leg, grid_of, present_values
 from .models.base import Model, Simulated
 from .moments import MomentAccumulator, Moments, moment_summary
 from .product import Product
-from .sampling import MethodSpec, Sampler, make_sampler, parse_method, resolve_method
+from .sampling import MethodSpec, Sampler, block_rows, make_sampler, normals_buffer, parse_method, resolve_method
 from .settings import CASE_WORDS_PER_DATE, DEFAULT_REGRESSION_PATHS, ENGINE_METHOD, MAX_CASE_BYTES
 from .streams import (
     BLOCK,
@@ -171,7 +171,7 @@ class Case:
             buf = self.buffer()
             for b in range(CONTROL_PILOT_BLOCKS):
                 g = block_generator(self.seed, self.key, ROLE_CONTROL_PILOT, b)
-                z = buf[:BLOCK]
+                z = block_rows(buf, BLOCK)
                 g.standard_normal(out=z)
                 x = self._values(policies, z, g)
                 acc.add(moment_summary(x, x.shape[0]))
@@ -202,8 +202,9 @@ class Case:
 
     # -- blocks --------------------------------------------------------------------------
     def buffer(self, size: int = BLOCK) -> np.ndarray:
-        """A normals buffer for blocks of up to ``size`` paths, to reuse across blocks."""
-        return np.empty((size, len(self.grid), self.k))
+        """A normals buffer for blocks of up to ``size`` paths, to reuse across blocks
+        (``(size, dates, k)`` laid out dates first: :func:`~limitcase.sampling.normals_buffer`)."""
+        return normals_buffer(size, len(self.grid), self.k)
 
     _buffer = buffer  # the name before the engine was split
 
@@ -231,7 +232,7 @@ class Case:
         sampler must have been prepared for the run (:meth:`blocks` does it)."""
         buf = buffer if buffer is not None else self.buffer(size)
         g = block_generator(self.seed, self.key, ROLE_PATHS, b)
-        z = buf[:size]
+        z = block_rows(buf, size)
         self.sampler.draw(g, z, b)
         return self._simulate(z, g)
 
@@ -241,7 +242,7 @@ class Case:
         included) on simulated paths: shape ``(paths, len(legs))``."""
         rate = self.model.short_rate
         which = range(len(self.legs)) if legs is None else legs
-        x = np.empty((sim.s.shape[0], len(which)))
+        x = np.empty((len(which), sim.s.shape[0])).T  # (paths, legs), each leg's values contiguous
         for j, i in enumerate(which):
             leg = self.legs[i]
             x[:, j] = present_values(leg, leg.observe(sim, rate, uniforms), rate, policies[i])
@@ -268,12 +269,15 @@ class Case:
     def block_result(self, b: int, x: np.ndarray) -> BlockResult:
         """Block ``b``'s summary from its present values ``x`` (paths x legs, controls
         last): the sampler's statistics, the path rules' tallies, the paying paths."""
+        # the layout :meth:`present` gives (each leg's values contiguous), whoever built ``x``:
+        # the sums over paths then run in the same order, so the same numbers to the last bit
+        x = np.asfortranarray(x)
         tallies: tuple[tuple[int, float, int], ...] = ()
         if self.rules:
             res = [PathRuleResult(rule) for rule in self.rules]
             _check_rules(res, x[:, : self.n_legs], b * BLOCK)
             tallies = tuple((r.violations, r.worst, r.worst_path) for r in res)
-        paying = tuple(int(c) for c in np.count_nonzero(x[:, : self.n_legs], axis=0))
+        paying = tuple(int(np.count_nonzero(x[:, i])) for i in range(self.n_legs))
         return BlockResult(b, x.shape[0], self.sampler.summarise(x, b), tallies, paying)
 
     def accumulator(self) -> "Accumulator":

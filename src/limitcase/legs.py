@@ -196,13 +196,17 @@ def present_values(leg: Leg, obs: Observed, rate: float, policy: Any) -> np.ndar
                 f"{name}.payoff returned shape {amount.shape}; expected ({n},) paid at the last date, "
                 f"({n}, {len(obs.t)}) paid at each date, or Cashflows"
             )
-    bad = ~np.isfinite(amount)
-    if bad.any():
+    # the smallest and largest amounts (NaN propagates): one pass each, and together they say
+    # whether every amount is finite and whether any is negative
+    lo = float(np.minimum.reduce(amount, axis=None)) if amount.size else 0.0
+    hi = float(np.maximum.reduce(amount, axis=None)) if amount.size else 0.0
+    if not (math.isfinite(lo) and math.isfinite(hi)):
+        bad = ~np.isfinite(amount)
         rows = np.flatnonzero(bad.reshape(n, -1).any(axis=1))
         raise PayoffError(
             f"{name}.payoff returned NaN or inf on {rows.size} of {n} paths (first at path {rows[0]})"
         )
-    if leg.product.nonnegative and amount.min(initial=0.0) < -1e-12:
+    if leg.product.nonnegative and lo < -1e-12:
         rows = np.flatnonzero((amount < -1e-12).reshape(n, -1).any(axis=1))
         raise NegativeAmount(
             f"{name} pays a negative amount ({amount.min():.6g}) on {rows.size} of {n} paths (first at path "

@@ -35,8 +35,10 @@ class Moments:
 def moment_summary(u: np.ndarray, paths: int) -> tuple[int, int, np.ndarray, np.ndarray]:
     """``(paths, units, mean, co-moment matrix)`` of the replicate rows ``u`` of one block."""
     nb = u.shape[0]
-    mb = u.mean(axis=0)
+    mb = np.add.reduce(u, axis=0) / nb
     d = u - mb
+    # einsum, not a matrix product: a threaded BLAS on a busy machine waits on its threads
+    # (a block of 4096 x 33 measured at 90 ms against 2 ms here)
     return paths, nb, mb, np.einsum("ni,nj->ij", d, d)
 
 

@@ -5,6 +5,16 @@ The engine simulates paths in blocks of ``BLOCK`` paths (see :mod:`limitcase.str
 says how the block's per-path present values become an estimate with a standard error.
 The model never knows which sampler fed it.
 
+Layout of a block (:func:`normals_buffer`). ``z`` is indexed paths first, but laid out in
+memory dates first: it is the transpose of a C-contiguous ``(normals_per_step, dates,
+paths)`` array (``z`` is Fortran-contiguous), so one date of one normal is a contiguous
+row over the paths. A model's accumulation over the dates is then whole-row adds, and a
+payoff's reductions over the dates (``obs.s.mean(axis=1)``) stream over contiguous rows;
+measured on a block of 4096 paths x 52 dates (2-core machine, CPU time): the mean over
+dates 0.2 ns per path-date against 0.56 paths-first. Pseudo-random normals are drawn in
+memory order (normal, date, path), so the numbers of a block depend on its size; the
+blocks of a run, and so its result, still depend only on the seed and the path count.
+
 Methods (``--method`` on ``check``)
 -----------------------------------
 ``plain``
@@ -90,6 +100,8 @@ __all__ = [
     "moment_summary",
     "make_sampler",
     "as_sampler",
+    "normals_buffer",
+    "block_rows",
 ]
 
 SCRAMBLES = 32
@@ -185,13 +197,40 @@ def resolve_method(
 # samplers
 
 
+def normals_buffer(paths: int, dates: int, k: int) -> np.ndarray:
+    """A block's normals ``(paths, dates, k)``, laid out dates first (the transpose of a
+    C-contiguous ``(k, dates, paths)`` array): see the module's notes on the layout."""
+    return np.empty((int(k), int(dates), int(paths))).T
+
+
+def block_rows(buf: np.ndarray, size: int) -> np.ndarray:
+    """The first ``size`` paths of a buffer from :func:`normals_buffer`, as a buffer of the
+    same layout (contiguous, so a generator can fill it); any other array: ``buf[:size]``."""
+    n, m, k = buf.shape
+    if size == n:
+        return buf
+    if buf.flags.f_contiguous and not buf.flags.c_contiguous:
+        return buf.T.reshape(-1)[: k * m * size].reshape(k, m, size).T
+    return buf[:size]
+
+
+def _fill_normals(g: np.random.Generator, z: np.ndarray) -> None:
+    """Standard normals into ``z``, in its memory order when it is contiguous."""
+    if z.flags.c_contiguous or z.flags.f_contiguous:
+        g.standard_normal(out=z)
+    else:
+        z[...] = g.standard_normal(z.shape)
+
+
 class Sampler:
     """Base of the sources of normals. ``bind`` ties one to a case (grid, normals per step,
     seed); the bound sampler fills blocks, summarises their present values and makes the
     accumulator that turns the summaries into :class:`Moments`.
 
     How to subclass: set ``method``, fill ``draw(g, z, block)`` (``z`` is the block's
-    ``(paths, dates, normals_per_step)`` array; ``g`` the block's generator), and override
+    ``(paths, dates, normals_per_step)`` array, laid out dates first: write it by indexing or
+    ``out=``, never through a reshape, which is a copy on that layout; ``g`` the block's
+    generator), and override
     ``round_paths``, ``summarise`` and ``accumulator`` when paths are not independent.
     """
 
@@ -224,7 +263,7 @@ class Plain(Sampler):
     method = "plain"
 
     def draw(self, g: np.random.Generator, z: np.ndarray, block: int) -> None:
-        g.standard_normal(out=z)
+        _fill_normals(g, z)
 
 
 class _Custom(Sampler):
@@ -235,7 +274,14 @@ class _Custom(Sampler):
         self.method = str(getattr(fn, "method", "custom"))
 
     def draw(self, g: np.random.Generator, z: np.ndarray, block: int) -> None:
-        self.fn(g, z, block)
+        # a user's function gets a C-contiguous block, as before the engine laid blocks out
+        # dates first: a write through a reshape of it (a copy on the other layout) still lands
+        if z.flags.c_contiguous:
+            self.fn(g, z, block)
+            return
+        tmp = np.empty(z.shape)
+        self.fn(g, tmp, block)
+        np.copyto(z, tmp)
 
 
 def as_sampler(obj: Any) -> Sampler:
@@ -265,7 +311,13 @@ class Antithetic(Sampler):
 
     def draw(self, g: np.random.Generator, z: np.ndarray, block: int) -> None:
         h = z.shape[0] // 2
-        g.standard_normal(out=z[:h])
+        if z.flags.f_contiguous and not z.flags.c_contiguous:  # dates first: halves of each row
+            zt = z.T
+            half = g.standard_normal(zt[:, :, :h].shape)
+            zt[:, :, :h] = half
+            np.negative(half, out=zt[:, :, h:])
+            return
+        _fill_normals(g, z[:h])
         np.negative(z[:h], out=z[h:])
 
     def summarise(self, x: np.ndarray, block: int) -> Any:
@@ -354,7 +406,7 @@ def _remember(tag: tuple, z: np.ndarray) -> None:
     while _BLOCKS and _BLOCK_BYTES[0] + z.nbytes > BLOCK_CACHE_BYTES:
         _, old = _BLOCKS.popitem(last=False)
         _BLOCK_BYTES[0] -= old.nbytes
-    keep = z.copy()
+    keep = z.copy(order="K")  # the block's layout (dates first), so a hit is a straight copy
     keep.flags.writeable = False
     _BLOCKS[tag] = keep
     _BLOCK_BYTES[0] += keep.nbytes
@@ -471,7 +523,7 @@ class SobolBridge(Sampler):
             u = u.reshape(count * n, dim)
             u += _HALF_CELL
             ndtri(u, out=u)
-            z = np.empty((count * n, m, k))
+            z = normals_buffer(count * n, m, k)
             if m == 1:
                 z[...] = u.reshape(count * n, 1, k)
             else:

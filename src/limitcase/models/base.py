@@ -7,6 +7,12 @@ The engine hands ``_simulate`` a block of standard normals ``z`` of shape
 model does not know) and a ``Generator`` for any other randomness it needs (jump counts).
 Keeping the source of randomness apart from the model is what lets the engine swap samplers
 and keep common random numbers across the products of one case.
+
+The engine's ``z`` is laid out dates first (Fortran order, the transpose of a C-contiguous
+``(normals_per_step, steps, paths)`` array: :func:`limitcase.sampling.normals_buffer`), so
+``z[:, j, i]`` (one date of one normal, every path) is contiguous: operate date by date on
+whole columns, or on the whole array. Index ``z`` rather than reshaping it (a reshape of a
+Fortran-ordered array may be a copy). Other callers (audits, tests) may pass any layout.
 """
 
 from __future__ import annotations
@@ -96,7 +102,7 @@ class Model(Parametrised):
         """Simulate prices at ``times`` from the normals ``z`` (shape
         ``(paths, len(times), normals_per_step())``); ``z`` may be overwritten."""
         times = np.asarray(times, dtype=float)
-        if times.ndim != 1 or times.size == 0 or times[0] <= 0 or np.any(np.diff(times) <= 0):
+        if times.ndim != 1 or not _increasing(times):
             raise ModelError(
                 f"{type(self).__name__}.simulate needs increasing times > 0; got {times[:6]!r}"
             )
@@ -140,6 +146,23 @@ class Model(Parametrised):
         European products use every kind (before the Fourier price of a stated
         :meth:`characteristic_function`). Default: none."""
         raise NoReference(f"{type(self).__name__} states no european_price(kind, strike, maturity)")
+
+
+_GRIDS: set[bytes] = set()
+
+
+def _increasing(times: np.ndarray) -> bool:
+    """Whether the 1-d ``times`` are increasing and > 0; grids seen before are remembered
+    (an engine simulates the same grid block after block)."""
+    key = times.tobytes()
+    if key in _GRIDS:
+        return True
+    if times.size == 0 or times[0] <= 0 or np.any(np.diff(times) <= 0):
+        return False
+    if len(_GRIDS) > 1024:
+        _GRIDS.clear()
+    _GRIDS.add(key)
+    return True
 
 
 def declared_at(cls: type) -> str:
