@@ -266,7 +266,7 @@ class _Barrier(Product):
         s = np.column_stack([np.full(obs.paths, obs.s0), obs.s])
         stay = (s < self.barrier if self.up else s > self.barrier).astype(float)
         if self.continuous:
-            with np.errstate(divide="ignore", invalid="ignore"):
+            with np.errstate(divide="ignore", invalid="ignore", over="ignore"):  # a zero or tiny step variance
                 d = np.log(s / self.barrier)  # signed log-distance to the barrier
                 gap = d[:, :-1] * d[:, 1:]  # > 0 when both ends lie on the same side
                 bridge = np.where(gap > 0.0, -np.expm1(-2.0 * gap / obs.step_var), 0.0)
