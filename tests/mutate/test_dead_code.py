@@ -1,6 +1,8 @@
-"""A mutant in a statement the original never runs on a comparison's paths reuses the
-original's comparison against itself (limitcase.mutate.dead): the equivalence records must be
-exactly those of comparing the mutant itself, for every mutant, reused or not."""
+"""A mutant in a statement the original never runs on a comparison's paths, or in an
+expression of a statement that runs but is never evaluated (the arm of a conditional
+expression not taken), reuses the original's comparison against itself
+(limitcase.mutate.dead): the equivalence records must be exactly those of comparing the
+mutant itself, for every mutant, reused or not."""
 
 from __future__ import annotations
 
@@ -12,7 +14,7 @@ from limitcase.loader import load_products
 from limitcase.mutate import equivalence, make_mutants, probe_difference
 from limitcase.mutate import dead
 
-PRODUCTS = ("DownAndOutPut", "BermudanPut", "GapCall", "SpreadCall")
+PRODUCTS = ("DownAndOutPut", "DownAndInCall", "BermudanPut", "GapCall", "SpreadCall")
 
 
 @pytest.mark.parametrize("name", PRODUCTS)
@@ -32,7 +34,7 @@ def test_reused_comparisons_are_the_mutants_own_bit_for_bit(name, monkeypatch):
     dead._RESULTS.clear()
     reused_somewhere = 0
     for m in mutants:
-        site = (m.file, m.mutation.line)
+        site = (m.file, m.mutation.line, m.mutation.col)
         before = calls["compared"]
         fast = equivalence(m.cls, m.original, paths=2048, site=site)
         spent = calls["compared"] - before
@@ -45,6 +47,28 @@ def test_reused_comparisons_are_the_mutants_own_bit_for_bit(name, monkeypatch):
         reused_somewhere += spent < len(fast.points)
     if name == "DownAndOutPut":  # the up-barrier branch and the rebate-at-hit branch are never run
         assert reused_somewhere >= 5
+    if name == "DownAndInCall":  # the put arm of `max(s - K, 0) if self.call else max(K - s, 0)`
+        assert reused_somewhere >= 3
+
+
+def test_the_span_of_a_mutation_is_the_widest_expression_starting_there(tmp_path):
+    src = tmp_path / "m.py"
+    src.write_text("def f(x, c):\n    return (x + 1) if c else (x * 2)\n")
+    src.write_text("def f(x, c):\n    return (x + 1) if c else (x * 2)\n\n\ndef g(x):\n    return x in (1, 2)\n")
+    assert dead.mutated_span(str(src), 2, 30) == (2, 2, 30, 35)  # x * 2
+    assert dead.mutated_span(str(src), 2, 12) == (2, 2, 12, 17)  # x + 1
+    assert dead.mutated_span(str(src), 2, 11) == (2, 2, 11, 36)  # the conditional expression
+    assert dead.mutated_span(str(src), 2, 4) is None  # a statement, not an expression
+    ns: dict = {}
+    exec(compile(src.read_text(), str(src), "exec"), ns)
+    _, lines, spans = dead.traced_spans(str(src), lambda: (ns["f"](3, True), ns["g"](1)))
+    assert 2 in lines
+    assert not dead._evaluated(spans, (2, 2, 30, 35))  # the arm not taken never ran
+    assert dead._evaluated(spans, (2, 2, 12, 17))  # x + 1 did
+    assert dead._evaluated(spans, (2, 2, 11, 36))
+    two = dead.mutated_span(str(src), 6, 20)
+    assert two == (6, 6, 20, 21)  # the 2 of (1, 2): folded into one constant, evaluated with it
+    assert dead._evaluated(spans, two)
 
 
 def test_a_statement_that_defines_is_never_judged_dead(tmp_path):

@@ -16,11 +16,21 @@ mutated statement executed, the mutant, given the same inputs, runs the same cod
 same numbers up to the end and pays the same amounts bit for bit: the comparison's result is
 that run's. A statement that defines a function or a class (a default argument is evaluated
 when the module is imported, not while pricing) is never judged this way.
+
+Finer: a statement that runs may hold an expression it never evaluates (the put arm of
+``max(s - K, 0) if self.call else max(K - s, 0)`` on a call). The traced run also records
+the source position of every bytecode instruction of the module that executes
+(:meth:`types.CodeType.co_positions`). A mutant changes one expression; if no executed
+instruction lies inside the widest expression starting where the mutation starts (the
+mutated node, or one holding it: the safe side), and no executed constant load covers it
+(the compiler folds ``(1, 2)`` or ``2 ** 10`` into one constant positioned at the whole), the
+original never evaluated it, so the mutant never does either: the same reuse applies.
 """
 
 from __future__ import annotations
 
 import ast
+import dis
 import hashlib
 import os
 import pickle
@@ -30,14 +40,15 @@ from typing import Any, Callable
 from ..models.base import Model
 from ..product import Product
 
-__all__ = ["mutated_lines", "reuse_or_compare", "traced"]
+__all__ = ["mutated_lines", "mutated_span", "reuse_or_compare", "traced", "traced_spans"]
 
 _STATEMENTS: dict[str, list[tuple[int, int, int, bool]]] = {}
 """Per module file: ``(first line, last line, header end, defines)`` of every statement."""
 
-_RESULTS: dict[tuple, tuple[Any, frozenset[int]]] = {}
-"""Per comparison: its result with the original in the mutant's place, and the lines of the
-module file that executed during it (this process only)."""
+_RESULTS: dict[tuple, tuple[Any, frozenset[int], frozenset[tuple[int, int, int, int, bool]]]] = {}
+"""Per comparison: its result with the original in the mutant's place, the lines of the
+module file that executed during it and the positions of its instructions that did (this
+process only)."""
 
 MOST_KEPT = 4096
 """Comparisons remembered at once (small tuples; the cache is emptied past this)."""
@@ -85,12 +96,24 @@ def _real(path: str) -> str:
 
 def traced(file: str, fn: Callable[[], Any]) -> tuple[Any, frozenset[int]]:
     """``fn()`` and the lines of ``file`` that executed during it (this thread)."""
+    out, lines, _ = traced_spans(file, fn)
+    return out, lines
+
+
+def traced_spans(file: str, fn: Callable[[], Any]
+                 ) -> tuple[Any, frozenset[int], frozenset[tuple[int, int, int, int, bool]]]:
+    """``fn()``, the lines of ``file`` that executed during it and, per bytecode instruction
+    of ``file`` that executed, its source position ``(line, end line, column, end column)``
+    (:meth:`types.CodeType.co_positions`) and whether it loads a constant (this thread)."""
     target = _real(file)
     seen: dict[str, bool] = {}
     lines: set[int] = set()
+    done: set[tuple[Any, int]] = set()
 
     def local(frame: Any, event: str, arg: Any) -> Any:
-        if event == "line":
+        if event == "opcode":
+            done.add((frame.f_code, frame.f_lasti))
+        elif event == "line":
             lines.add(frame.f_lineno)
         return local
 
@@ -101,6 +124,7 @@ def traced(file: str, fn: Callable[[], Any]) -> tuple[Any, frozenset[int]]:
             mine = seen[name] = _real(name) == target
         if mine:
             lines.add(frame.f_lineno)
+            frame.f_trace_opcodes = True
             return local
         return None
 
@@ -110,16 +134,75 @@ def traced(file: str, fn: Callable[[], Any]) -> tuple[Any, frozenset[int]]:
         out = fn()
     finally:
         sys.settrace(previous)
-    return out, frozenset(lines)
+    spans: set[tuple[int, int, int, int, bool]] = set()
+    table: dict[Any, list] = {}
+    for code, offset in done:
+        pos = table.get(code)
+        if pos is None:
+            pos = table[code] = list(code.co_positions())
+        i = offset // 2  # one position per 2-byte code unit
+        if 0 <= i < len(pos) and None not in pos[i]:
+            spans.add((*pos[i], code.co_code[offset] == _LOAD_CONST))
+    return out, frozenset(lines), frozenset(spans)
+
+
+def mutated_span(file: str, line: int, col: int) -> tuple[int, int, int, int] | None:
+    """``(line, end line, column, end column)`` of the widest expression of ``file``
+    starting at ``(line, col)`` (the mutated node or one holding it: the safe side), or
+    ``None`` when no expression starts there."""
+    try:
+        tree = _trees(file)
+    except (OSError, SyntaxError, ValueError):
+        return None
+    best = None
+    for node in tree:
+        if node.lineno == line and node.col_offset == col and node.end_lineno is not None:
+            span = (node.lineno, node.end_lineno, node.col_offset, node.end_col_offset or 0)
+            if best is None or (span[1], span[3]) > (best[1], best[3]):
+                best = span
+    return best
+
+
+_TREES: dict[str, list] = {}
+
+
+def _trees(file: str) -> list:
+    found = _TREES.get(file)
+    if found is None:
+        with open(file, encoding="utf-8") as f:
+            tree = ast.parse(f.read())
+        found = _TREES[file] = [n for n in ast.walk(tree) if isinstance(n, ast.expr)]
+    return found
+
+
+_LOAD_CONST = dis.opmap["LOAD_CONST"]
+
+
+def _inside(pos: tuple, span: tuple[int, int, int, int]) -> bool:
+    return (pos[0], pos[2]) >= (span[0], span[2]) and (pos[1], pos[3]) <= (span[1], span[3])
+
+
+def _evaluated(spans: frozenset, span: tuple[int, int, int, int]) -> bool:
+    """Whether the expression at ``span`` was evaluated: an executed instruction lies inside
+    it, or an executed constant load covers it (the compiler folds constant expressions,
+    ``(1, 2)`` or ``2 ** 10``, into one constant positioned at the whole expression)."""
+    for pos in spans:
+        if _inside(pos, span):
+            return True
+        if pos[4] and (pos[0], pos[2]) <= (span[1], span[3]) and (span[0], span[2]) <= (pos[1], pos[3]):
+            return True
+    return False
 
 
 def reuse_or_compare(compare: Callable[..., Any], original: Product, mutant: Product, model: Model, paths: int,
-                     seed: int, key: int, site: tuple[str, int] | None) -> Any:
+                     seed: int, key: int, site: tuple[str, int] | tuple[str, int, int] | None) -> Any:
     """``compare(original, mutant, model, paths, seed, key)``, or, when the mutation at
-    ``site`` (``(module file, line)``) is in a statement the original does not execute on
-    these paths, the result of ``compare`` with a copy of the original in the mutant's place
-    (computed once per point in this process)."""
-    stmt = mutated_lines(*site) if site is not None else None
+    ``site`` (``(module file, line[, column])``) is in a statement the original does not
+    execute on these paths, or in an expression it never evaluates there (with the column:
+    no executed instruction lies inside the widest expression starting at it, and no
+    executed constant load covers it), the result of ``compare`` with a copy of the original
+    in the mutant's place (computed once per point in this process)."""
+    stmt = mutated_lines(site[0], site[1]) if site is not None else None
     if stmt is None:
         return compare(original, mutant, model, paths, seed, key)
     try:  # the model's whole state: a label or repr may abbreviate (a correlation matrix, a surface)
@@ -131,11 +214,17 @@ def reuse_or_compare(compare: Callable[..., Any], original: Product, mutant: Pro
     hit = _RESULTS.get(ck)
     if hit is None:
         twin = type(original)(**original.params())
-        hit = traced(site[0], lambda: compare(original, twin, model, paths, seed, key))
+        hit = traced_spans(site[0], lambda: compare(original, twin, model, paths, seed, key))
         if len(_RESULTS) >= MOST_KEPT:
             _RESULTS.clear()
         _RESULTS[ck] = hit
-    result, ran = hit
-    if any(line in ran for line in stmt):
-        return compare(original, mutant, model, paths, seed, key)
-    return result
+    result, ran, spans = hit
+    if not any(line in ran for line in stmt):
+        return result
+    # the statement ran; the mutated expression may still never have been evaluated (the arm
+    # of a conditional expression not taken, the right side of a short-circuit): no
+    # instruction positioned inside it executed
+    span = mutated_span(site[0], site[1], site[2]) if len(site) > 2 else None
+    if span is not None and not _evaluated(spans, span):
+        return result
+    return compare(original, mutant, model, paths, seed, key)

@@ -191,7 +191,7 @@ def probe_point(cls: type[Product], model: Model | None = None) -> Point | None:
 
 def probe_difference(mutant_cls: type[Product], original: type[Product], *, paths: int = EQUIVALENCE_PATHS,
                      seed: int = DEFAULT_SEED, model: Model | None = None,
-                     site: tuple[str, int] | None = None) -> PointDifference | None:
+                     site: tuple[str, int] | tuple[str, int, int] | None = None) -> PointDifference | None:
     """How the mutant compares with the original at :func:`probe_point` (``None`` if no
     such point can be made); under ``model`` when given; ``site`` as for :func:`equivalence`."""
     pt = probe_point(mutant_cls, model)
@@ -294,7 +294,8 @@ def _random_compare(original: Product, mutant: Product, model: Model, paths: int
 
 def equivalence(mutant_cls: type[Product], original: type[Product], *, paths: int = EQUIVALENCE_PATHS,
                 seed: int = DEFAULT_SEED, points: Sequence[Point] | None = None, stop_early: bool = False,
-                model: Model | None = None, site: tuple[str, int] | None = None) -> Equivalence:
+                model: Model | None = None, site: tuple[str, int] | tuple[str, int, int] | None = None
+                ) -> Equivalence:
     """Whether a mutant pays what the original pays at every parameter point of the checks.
 
     Parameters
@@ -312,10 +313,11 @@ def equivalence(mutant_cls: type[Product], original: type[Product], *, paths: in
     model
         The model every check runs under (``--model``); default: each product's scenario.
     site
-        ``(module file, line)`` of the mutated node: where the original, run on a point's
-        paths in the mutant's place, never executes that statement, the simulated comparison
-        is the original's against itself, computed once per point and reused
-        (:mod:`limitcase.mutate.dead`); the same numbers, bit for bit.
+        ``(module file, line[, column])`` of the mutated node: where the original, run on a
+        point's paths in the mutant's place, never executes that statement (or, with the
+        column, never evaluates that expression), the simulated comparison is the original's
+        against itself, computed once per point and reused (:mod:`limitcase.mutate.dead`);
+        the same numbers, bit for bit.
 
     Notes
     -----
