@@ -151,27 +151,28 @@ def mutated_span(file: str, line: int, col: int) -> tuple[int, int, int, int] | 
     starting at ``(line, col)`` (the mutated node or one holding it: the safe side), or
     ``None`` when no expression starts there."""
     try:
-        tree = _trees(file)
+        return _spans(file).get((line, col))
     except (OSError, SyntaxError, ValueError):
         return None
-    best = None
-    for node in tree:
-        if node.lineno == line and node.col_offset == col and node.end_lineno is not None:
-            span = (node.lineno, node.end_lineno, node.col_offset, node.end_col_offset or 0)
-            if best is None or (span[1], span[3]) > (best[1], best[3]):
-                best = span
-    return best
 
 
-_TREES: dict[str, list] = {}
+_SPANS: dict[str, dict[tuple[int, int], tuple[int, int, int, int]]] = {}
+"""Per module file: the widest expression starting at each ``(line, column)``."""
 
 
-def _trees(file: str) -> list:
-    found = _TREES.get(file)
+def _spans(file: str) -> dict[tuple[int, int], tuple[int, int, int, int]]:
+    found = _SPANS.get(file)
     if found is None:
         with open(file, encoding="utf-8") as f:
             tree = ast.parse(f.read())
-        found = _TREES[file] = [n for n in ast.walk(tree) if isinstance(n, ast.expr)]
+        found = {}
+        for node in ast.walk(tree):
+            if isinstance(node, ast.expr) and node.end_lineno is not None:
+                span = (node.lineno, node.end_lineno, node.col_offset, node.end_col_offset or 0)
+                best = found.get((node.lineno, node.col_offset))
+                if best is None or (span[1], span[3]) > (best[1], best[3]):
+                    found[(node.lineno, node.col_offset)] = span
+        _SPANS[file] = found
     return found
 
 
