@@ -455,11 +455,15 @@ def run_check(
     max_paths: int = DEFAULT_MAX_PATHS,
     alpha: float = DEFAULT_ALPHA,
     family: int = 1,
+    stop_at_broken_identity: bool = False,
 ) -> Outcome:
     """Price one check in this process and return its outcome before the run-wide correction.
 
     With ``precision``, the detectable bias is computed at ``alpha`` over a run of
-    ``family`` checks (the Holm family the check will be part of).
+    ``family`` checks (the Holm family the check will be part of). With
+    ``stop_at_broken_identity``, pricing stops after the first block on which a path-by-path
+    identity breaks: the check fails whatever the other blocks give (the mutation run's
+    first pass; the outcome's counts are then those of the blocks priced).
     """
     validate_run(paths=paths, seed=seed, alpha=alpha, method=method, max_paths=max_paths, workers=1,
                  regression_paths=regression_paths)
@@ -478,10 +482,14 @@ def run_check(
             acc = case.accumulator()
             buf = case.buffer(min(BLOCK, n))
             for b in range(Case.blocks_for(n)):
+                broken = False
                 for r in case.blocks(setup, b, b + 1, n, buf):
                     acc.add(r)
+                    broken = broken or any(v > 0 for v, _, _ in r.rules)
                 if on_batch is not None:
                     on_batch(acc.paths)
+                if broken and stop_at_broken_identity:
+                    break
             joint = acc.joint(setup)
         except NegativeAmount as exc:  # a failure of the check, not an error
             return negative_outcome(check, str(exc), seed, paths)

@@ -124,7 +124,8 @@ def _run_each(cls: type[Product], paths: int, s: dict, order: Sequence[int] | No
             limit = s["alpha"] / max(1, len(checks))
             for j in (range(len(checks)) if order is None else order):
                 t0 = time.process_time()
-                o = run_check(checks[j], paths=paths, seed=s["seed"], method=s["method"], alpha=s["alpha"])
+                o = run_check(checks[j], paths=paths, seed=s["seed"], method=s["method"], alpha=s["alpha"],
+                              stop_at_broken_identity=baseline is not None)
                 seconds[j] = time.process_time() - t0
                 raw[j] = o
                 if (baseline is not None and j < len(baseline) and baseline[j] in _USABLE and o.verdict != "error"
