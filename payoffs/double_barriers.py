@@ -328,6 +328,10 @@ _SINGLE_CONTINUOUS = {
 }
 
 
+_CUT = 40.0
+"""Image terms of :func:`strip_survival` bounded by exp(-_CUT) on every element are skipped."""
+
+
 def strip_survival(x: np.ndarray, y: np.ndarray, var: np.ndarray, lower: float, upper: float) -> np.ndarray:
     """Probability that a Brownian bridge from log-price ``x`` to ``y`` with variance ``var``
     stays inside (log L, log U), both ends inside (method of images):
@@ -348,17 +352,23 @@ def strip_survival(x: np.ndarray, y: np.ndarray, var: np.ndarray, lower: float, 
             p = -np.expm1(-2.0 * (x - a) * (y - a) / var)
         else:
             w = b - a
-            # With both ends inside, |y - x| < w and 0 < b - x, b - y < w bound the exponents:
-            # term 1 by -2|n|(|n| - 1) w^2 / var, term 2 by -2 n^2 w^2 / var (n >= 0) or
-            # -2 (|n| - 1)^2 w^2 / var (n < 0). Terms below exp(-745) underflow to 0: skipped.
+            d = y - x
+            # With both ends inside, 0 < b - x, b - y < w bound the exponents: term 1 by
+            # -2|n| w (|n| w - max|y - x|) / var, term 2 by -2 n^2 w^2 / var (n >= 0) or
+            # -2 (|n| - 1)^2 w^2 / var (n < 0). A term whose bound is below -_CUT everywhere
+            # (under e^-40 = 4e-18) is skipped: the bounds fall faster than geometrically in
+            # |n|, so all that is skipped sums to less than 1e-16 (under the rounding of a
+            # probability near 1, far below the engine's path-by-path tolerance). On short
+            # steps only n = 0 of term 1 and n = 0, -1 of term 2 remain.
             scale = 2.0 * w * w / float(np.max(var))
-            n_max = 1 + int(math.ceil(math.sqrt(745.0 / scale)))
+            reach = float(np.max(np.abs(d), where=inside, initial=0.0)) / w
+            n_max = 1 + int(math.ceil(math.sqrt(_CUT / scale))) + int(math.ceil(reach))
             p = np.zeros(np.broadcast(x, y, var).shape)
             for n in range(-n_max, n_max + 1):
                 m = abs(n)
-                if m * (m - 1) * scale <= 745.0:
-                    p = p + np.exp(-2.0 * n * w * (n * w - (y - x)) / var)
-                if (n * n if n >= 0 else (m - 1) ** 2) * scale <= 745.0:
+                if m * (m - reach) * scale <= _CUT:
+                    p = p + np.exp(-2.0 * n * w * (n * w - d) / var)
+                if (n * n if n >= 0 else (m - 1) ** 2) * scale <= _CUT:
                     p = p - np.exp(-2.0 * (b - x + n * w) * (b - y + n * w) / var)
         return np.where(inside, np.clip(np.nan_to_num(p, nan=0.0), 0.0, 1.0), 0.0)
 
