@@ -196,13 +196,17 @@ def _evaluated(spans: frozenset, span: tuple[int, int, int, int]) -> bool:
 
 
 def reuse_or_compare(compare: Callable[..., Any], original: Product, mutant: Product, model: Model, paths: int,
-                     seed: int, key: int, site: tuple[str, int] | tuple[str, int, int] | None) -> Any:
+                     seed: int, key: int, site: tuple[str, int] | tuple[str, int, int] | None,
+                     variant: tuple[str, str] | None = None) -> Any:
     """``compare(original, mutant, model, paths, seed, key)``, or, when the mutation at
     ``site`` (``(module file, line[, column])``) is in a statement the original does not
     execute on these paths, or in an expression it never evaluates there (with the column:
     no executed instruction lies inside the widest expression starting at it, and no
     executed constant load covers it), the result of ``compare`` with a copy of the original
-    in the mutant's place (computed once per point in this process)."""
+    in the mutant's place (computed once per point in this process). With ``variant``
+    (``(function's qualified name, mutated function's source)``, as the mutation has them),
+    also when the mutated expression runs but gives, at every evaluation, what the
+    original's gives (:mod:`limitcase.mutate.infection`)."""
     stmt = mutated_lines(site[0], site[1]) if site is not None else None
     if stmt is None:
         return compare(original, mutant, model, paths, seed, key)
@@ -228,4 +232,38 @@ def reuse_or_compare(compare: Callable[..., Any], original: Product, mutant: Pro
     span = mutated_span(site[0], site[1], site[2]) if len(site) > 2 else None
     if span is not None and not _evaluated(spans, span):
         return result
+    if variant is not None:
+        changed = _changed(ck, compare, original, model, paths, seed, key, result)
+        if changed is not None and changed[0].unchanged(variant, changed[1]):
+            return result
     return compare(original, mutant, model, paths, seed, key)
+
+
+_CHANGED: dict[tuple, tuple[Any, frozenset[int]] | None] = {}
+"""Per comparison: the probed twin and the mutated forms its probes saw change, or ``None``
+when the probed run did not give exactly the plain twin's result (this process only)."""
+
+
+def _changed(ck: tuple, compare: Callable[..., Any], original: Product, model: Model, paths: int, seed: int,
+             key: int, result: Any) -> tuple[Any, frozenset[int]] | None:
+    """The probed run of a comparison (:mod:`limitcase.mutate.infection`), once per point."""
+    if ck in _CHANGED:
+        return _CHANGED[ck]
+    from .infection import probed_class
+
+    probed = probed_class(type(original))
+    found: tuple[Any, frozenset[int]] | None = None
+    if probed is not None:
+        probed.reset()
+        try:
+            again = compare(original, probed.cls(**original.params()), model, paths, seed, key)
+        except Exception:
+            again = None
+        # the probes hand on the original's values: the same result to the last bit, or a
+        # probe disturbed the run and nothing is reused
+        if again is not None and repr(again) == repr(result):
+            found = (probed, frozenset(probed.changed))
+    if len(_CHANGED) >= MOST_KEPT:
+        _CHANGED.clear()
+    _CHANGED[ck] = found
+    return found

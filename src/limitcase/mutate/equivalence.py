@@ -191,9 +191,11 @@ def probe_point(cls: type[Product], model: Model | None = None) -> Point | None:
 
 def probe_difference(mutant_cls: type[Product], original: type[Product], *, paths: int = EQUIVALENCE_PATHS,
                      seed: int = DEFAULT_SEED, model: Model | None = None,
-                     site: tuple[str, int] | tuple[str, int, int] | None = None) -> PointDifference | None:
+                     site: tuple[str, int] | tuple[str, int, int] | None = None,
+                     variant: tuple[str, str] | None = None) -> PointDifference | None:
     """How the mutant compares with the original at :func:`probe_point` (``None`` if no
-    such point can be made); under ``model`` when given; ``site`` as for :func:`equivalence`."""
+    such point can be made); under ``model`` when given; ``site`` and ``variant`` as for
+    :func:`equivalence`."""
     pt = probe_point(mutant_cls, model)
     if pt is None:
         return None
@@ -202,7 +204,7 @@ def probe_difference(mutant_cls: type[Product], original: type[Product], *, path
     if note and "dates" in note:
         return PointDifference(pt.label, n, bad, note=note)
     v, diff, se, price, sd, rnote = reuse_or_compare(_random_compare, orig, pt.product, pt.model, paths, seed,
-                                                     case_key(original.__name__, "mutation-probe"), site)
+                                                     case_key(original.__name__, "mutation-probe"), site, variant)
     return PointDifference(pt.label, n, bad, paths, v, diff, se, price, sd, note or rnote)
 
 
@@ -294,8 +296,8 @@ def _random_compare(original: Product, mutant: Product, model: Model, paths: int
 
 def equivalence(mutant_cls: type[Product], original: type[Product], *, paths: int = EQUIVALENCE_PATHS,
                 seed: int = DEFAULT_SEED, points: Sequence[Point] | None = None, stop_early: bool = False,
-                model: Model | None = None, site: tuple[str, int] | tuple[str, int, int] | None = None
-                ) -> Equivalence:
+                model: Model | None = None, site: tuple[str, int] | tuple[str, int, int] | None = None,
+                variant: tuple[str, str] | None = None) -> Equivalence:
     """Whether a mutant pays what the original pays at every parameter point of the checks.
 
     Parameters
@@ -318,6 +320,10 @@ def equivalence(mutant_cls: type[Product], original: type[Product], *, paths: in
         column, never evaluates that expression), the simulated comparison is the original's
         against itself, computed once per point and reused (:mod:`limitcase.mutate.dead`);
         the same numbers, bit for bit.
+    variant
+        ``(function's qualified name, mutated function's source)`` of the mutation: where
+        the mutated expression runs but gives what the original's gives at every
+        evaluation, the same reuse (:mod:`limitcase.mutate.infection`).
 
     Notes
     -----
@@ -344,7 +350,8 @@ def equivalence(mutant_cls: type[Product], original: type[Product], *, paths: in
                 break
             continue
         v, diff, se, price, sd, rnote = reuse_or_compare(_random_compare, orig, pt.product, pt.model, paths, seed,
-                                                         case_key(name, "mutation-equivalence", str(i)), site)
+                                                         case_key(name, "mutation-equivalence", str(i)), site,
+                                                         variant)
         pd = PointDifference(pt.label, n, bad, paths, v, diff, se, price, sd, note or rnote)
         results.append(pd)
         if stop_early and pd.differs:

@@ -174,6 +174,41 @@ def _statements(fn: ast.FunctionDef) -> dict[int, ast.stmt]:
     return owner
 
 
+def function_variants(work: ast.FunctionDef, ctx: Context, operators: Sequence[str] | None = None
+                      ) -> Iterator[tuple[int, ast.AST, ast.AST, tuple[str, str], str]]:
+    """Every change the operators propose to ``work`` (a :func:`_strip` copy), de-duplicated:
+    ``(node index, node, replacement, (operator, description), mutated function's source)``.
+    ``work`` is left as it was; the replacement is a fresh node (a deep copy)."""
+    names = list(OPERATORS) if operators is None else list(operators)
+    unknown = [n for n in names if n not in OPERATORS]
+    if unknown:
+        raise InputError(
+            f"operator={unknown[0]!r} is not a mutation operator; choose from {', '.join(OPERATORS)}"
+        )
+    seen = {ast.unparse(work)}
+    for index, node, parent, fld, idx in list(_mutable_nodes(work)):
+        for name in names:
+            for new, description in OPERATORS[name].apply(node, parent, ctx):
+                assert parent is not None and fld is not None
+                ast.copy_location(new, node)
+                ast.fix_missing_locations(new)
+                if idx is None:
+                    setattr(parent, fld, new)
+                else:
+                    getattr(parent, fld)[idx] = new
+                try:
+                    text = ast.unparse(work)
+                finally:
+                    if idx is None:
+                        setattr(parent, fld, node)
+                    else:
+                        getattr(parent, fld)[idx] = node
+                if text in seen:
+                    continue
+                seen.add(text)
+                yield index, node, copy.deepcopy(new), (name, description), text
+
+
 def function_mutations(
     fn: ast.FunctionDef,
     source: str,
@@ -207,47 +242,21 @@ def function_mutations(
         In source order; a change that yields the same function as another, or as the
         original, is dropped.
     """
-    names = list(OPERATORS) if operators is None else list(operators)
-    unknown = [n for n in names if n not in OPERATORS]
-    if unknown:
-        raise InputError(
-            f"operator={unknown[0]!r} is not a mutation operator; choose from {', '.join(OPERATORS)}"
-        )
     lines = source.splitlines(keepends=True)
     work = _strip(fn)
-    seen = {ast.unparse(work)}
     owners = _statements(work)
     out: list[Mutation] = []
     qual = qualname or fn.name
-    for index, node, parent, fld, idx in list(_mutable_nodes(work)):
-        for name in names:
-            for new, description in OPERATORS[name].apply(node, parent, ctx):
-                assert parent is not None and fld is not None
-                ast.copy_location(new, node)
-                ast.fix_missing_locations(new)
-                if idx is None:
-                    setattr(parent, fld, new)
-                else:
-                    getattr(parent, fld)[idx] = new
-                try:
-                    text = ast.unparse(work)
-                finally:
-                    if idx is None:
-                        setattr(parent, fld, node)
-                    else:
-                        getattr(parent, fld)[idx] = node
-                if text in seen:
-                    continue
-                seen.add(text)
-                new_lines = _splice(lines, node, new)
-                diff = _diff(lines, new_lines, node.lineno, node.end_lineno, filename)  # type: ignore[attr-defined]
-                stmt = owners.get(id(node))
-                involved = _self_params(node, ctx) or (_self_params(stmt, ctx) if stmt is not None else ())
-                out.append(Mutation(
-                    operator=name, description=description, function=qual, line=node.lineno,  # type: ignore[attr-defined]
-                    col=node.col_offset, node_index=index, diff=diff, source=text,  # type: ignore[attr-defined]
-                    params_involved=involved,
-                ))
+    for index, node, new, (operator, description), text in function_variants(work, ctx, operators):
+        new_lines = _splice(lines, node, new)
+        diff = _diff(lines, new_lines, node.lineno, node.end_lineno, filename)  # type: ignore[attr-defined]
+        stmt = owners.get(id(node))
+        involved = _self_params(node, ctx) or (_self_params(stmt, ctx) if stmt is not None else ())
+        out.append(Mutation(
+            operator=operator, description=description, function=qual, line=node.lineno,  # type: ignore[attr-defined]
+            col=node.col_offset, node_index=index, diff=diff, source=text,  # type: ignore[attr-defined]
+            params_involved=involved,
+        ))
     order = list(OPERATORS)
     out.sort(key=lambda m: (m.line, m.col, order.index(m.operator)))
     return out

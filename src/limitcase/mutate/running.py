@@ -198,7 +198,8 @@ def _safe_equivalence(mutant: Mutant, paths: int, seed: int, stop_early: bool) -
         points = check_points(mutant.cls, _checks_of(mutant.cls), model)
         return equivalence(mutant.cls, mutant.original, paths=paths, seed=seed, stop_early=stop_early,
                            model=model, points=points,
-                           site=(mutant.file, mutant.mutation.line, mutant.mutation.col))
+                           site=(mutant.file, mutant.mutation.line, mutant.mutation.col),
+                           variant=(mutant.mutation.function, mutant.mutation.source))
     except Exception as exc:  # the comparison itself broke on the mutant: it is not equivalent
         return Equivalence(False, (PointDifference("(comparison)", note=f"{type(exc).__name__}: {exc}"),))
 
@@ -221,7 +222,8 @@ def _task_mutant(mid: int, stage: str, baseline: Sequence[str], order: Sequence[
             try:
                 off = probe_difference(mutant.cls, mutant.original, paths=s["equivalence_paths"], seed=s["seed"],
                                        model=_REGISTRY.get("model"),
-                                       site=(mutant.file, mutant.mutation.line, mutant.mutation.col))
+                                       site=(mutant.file, mutant.mutation.line, mutant.mutation.col),
+                           variant=(mutant.mutation.function, mutant.mutation.source))
             except Exception as exc:
                 off = PointDifference("(probe)", note=f"{type(exc).__name__}: {exc}")
             out.update(status="equivalent", paths=0, cases=[], message="", probe=off,
