@@ -89,7 +89,9 @@ Layout
 :mod:`~limitcase.mutate.operators` (the slips), :mod:`~limitcase.mutate.mutants` (scope,
 mutations of one function, compiled mutant classes), :mod:`~limitcase.mutate.equivalence` (with :mod:`~limitcase.mutate.dead`: a mutant whose
 statement the original never runs on a point's paths reuses the original's comparison with
-itself, the same numbers bit for bit; and :mod:`~limitcase.mutate.shared`: the mutants of a
+itself, the same numbers bit for bit; :mod:`~limitcase.mutate.infection`: so does one whose
+mutated expression, probed in one run of the original per point, gives the original's value
+at every evaluation; and :mod:`~limitcase.mutate.shared`: the mutants of a
 point share its simulated paths and the original's present values on them),
 :mod:`~limitcase.mutate.running` (the checks on the mutants, over the shared pool; with
 :mod:`~limitcase.mutate.same_checks`: a mutant whose statement the check building never

@@ -43,7 +43,7 @@ from typing import Any, Callable
 import numpy as np
 
 from ..product import Product
-from .mutants import Scoped, _context, _strip, function_variants, payoff_scope
+from .mutants import Scoped, build_class, function_variants, payoff_scope, scope_contexts, strip_function
 
 __all__ = ["ProbedClass", "probed_class", "same_value"]
 
@@ -163,15 +163,6 @@ def _lift(node: ast.AST, new: ast.AST, parents: dict) -> tuple[ast.AST, ast.AST]
         node = parent
 
 
-def _obs_name(cls: type[Product]) -> str:
-    """The observation argument's name in the class's payoff, as the mutants were made."""
-    for e in payoff_scope(cls):
-        if e.name in ("payoff", "exercise_value"):
-            args = e.node.args.posonlyargs + e.node.args.args
-            return args[1].arg if len(args) >= 2 else "obs"
-    return "obs"
-
-
 def same_value(v: Any, w: Any, fresh: Callable[[Any], bool]) -> bool:
     """Whether a mutated form's value ``w`` cannot be told apart from the original's ``v``
     by the rest of the run (see the module); ``fresh(a)``: ``a`` owns its memory and nothing
@@ -245,9 +236,8 @@ class ProbedClass:
             del w
         return v
 
-    def _instrument(self, entry: Scoped, cls: type[Product]) -> str | None:
-        ctx = _context(cls, entry, _obs_name(cls))
-        work = _strip(entry.node)
+    def _instrument(self, entry: Scoped, ctx: Any) -> str | None:
+        work = strip_function(entry.node)
         parents = _parents(work)
         sites: dict[int, tuple[ast.AST, list[tuple[int, ast.AST]]]] = {}
         for _, node, new, _, text in function_variants(work, ctx):
@@ -281,27 +271,16 @@ class ProbedClass:
         return ast.unparse(out)
 
     def _build(self, cls: type[Product]) -> type[Product]:
-        from .mutants import _compile_function, _rebind, _wrap
-
         scope = payoff_scope(cls)
-        module = sys.modules[cls.__module__]
-        ns = dict(vars(module))
-        ns[_PROBE] = self._probe
-        rebound: dict[str, Any] = {}
+        contexts = scope_contexts(cls, scope)
+        sources = {}
         for e in scope:
-            text = self._instrument(e, cls)
-            with warnings.catch_warnings():
-                warnings.simplefilter("ignore")
-                fn = _compile_function(text, ns, e, "probes") if text is not None else _rebind(e.func, ns)
-            rebound[e.qualname] = fn
-            if e.kind == "function":
-                ns[e.name] = fn
-        body: dict[str, Any] = {}
-        for e in scope:
-            if e.kind != "function":
-                body[e.name] = _wrap(e.kind, rebound[e.qualname])
-        body.update(__module__=cls.__module__, __qualname__=cls.__qualname__, __doc__=cls.__doc__, mutant_of=cls)
-        return type(cls)(cls.__name__, (cls,), body)
+            text = self._instrument(e, contexts[e.qualname])
+            if text is not None:
+                sources[e.qualname] = text
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")
+            return build_class(cls, scope, sources, "probes", extra={_PROBE: self._probe})
 
 
 def _fresh_refs() -> int:

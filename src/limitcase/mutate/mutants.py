@@ -27,10 +27,14 @@ __all__ = [
     "Mutant",
     "Mutation",
     "Scoped",
+    "build_class",
     "build_mutant_class",
     "function_mutations",
+    "function_variants",
     "make_mutants",
     "payoff_scope",
+    "scope_contexts",
+    "strip_function",
 ]
 
 ROOTS = ("payoff", "exercise_value", "dates", "exercise_dates")
@@ -496,15 +500,18 @@ def _wrap(kind: str, func: types.FunctionType) -> Any:
     return func
 
 
-def build_mutant_class(cls: type[Product], scope: Sequence[Scoped], target: Scoped,
-                       source: str, label: str = "") -> type[Product]:
+def build_class(cls: type[Product], scope: Sequence[Scoped], sources: dict[str, str], label: str = "",
+                extra: dict[str, Any] | None = None) -> type[Product]:
     """The subclass of ``cls`` whose in-scope functions are rebound to a copy of the
-    module's namespace, with ``target`` replaced by the compiled ``source``."""
+    module's namespace (with ``extra`` names added), those named in ``sources`` (by
+    qualified name) replaced by their compiled source."""
     module = sys.modules[cls.__module__]
     ns = dict(vars(module))
+    ns.update(extra or {})
     rebound: dict[str, types.FunctionType] = {}
     for e in scope:
-        fn = _compile_function(source, ns, e, label) if e is target else _rebind(e.func, ns)
+        text = sources.get(e.qualname)
+        fn = _compile_function(text, ns, e, label) if text is not None else _rebind(e.func, ns)
         rebound[e.qualname] = fn
         if e.kind == "function":
             ns[e.name] = fn
@@ -515,6 +522,28 @@ def build_mutant_class(cls: type[Product], scope: Sequence[Scoped], target: Scop
     body.update(__module__=cls.__module__, __qualname__=cls.__qualname__, __doc__=cls.__doc__,
                 mutant_of=cls)
     return type(cls)(cls.__name__, (cls,), body)
+
+
+def build_mutant_class(cls: type[Product], scope: Sequence[Scoped], target: Scoped,
+                       source: str, label: str = "") -> type[Product]:
+    """The subclass of ``cls`` whose in-scope functions are rebound to a copy of the
+    module's namespace, with ``target`` replaced by the compiled ``source``."""
+    return build_class(cls, scope, {target.qualname: source}, label)
+
+
+def scope_contexts(cls: type[Product], scope: Sequence[Scoped]) -> dict[str, Context]:
+    """What the operators may know in each in-scope function of ``cls``, by qualified name
+    (the observation argument named as the payoff names it)."""
+    payoff_entry = next((e for e in scope if e.name in ("payoff", "exercise_value")), None)
+    obs_name = "obs"
+    if payoff_entry is not None:
+        args = payoff_entry.node.args.posonlyargs + payoff_entry.node.args.args
+        if len(args) >= 2:
+            obs_name = args[1].arg
+    return {e.qualname: _context(cls, e, obs_name) for e in scope}
+
+
+strip_function = _strip
 
 
 _MUTATIONS: dict[tuple, list[Mutation]] = {}
@@ -529,17 +558,12 @@ def make_mutants(cls: type[Product], operators: Sequence[str] | None = None
     if not scope:
         return [], []
     src = _module_source(sys.modules[cls.__module__])
-    payoff_entry = next((e for e in scope if e.name in ("payoff", "exercise_value")), None)
-    obs_name = "obs"
-    if payoff_entry is not None:
-        args = payoff_entry.node.args.posonlyargs + payoff_entry.node.args.args
-        if len(args) >= 2:
-            obs_name = args[1].arg
+    contexts = scope_contexts(cls, scope)
     mutants: list[Mutant] = []
     discarded: list[Discarded] = []
     disp = _display_path(src.file)
     for entry in scope:
-        ctx = _context(cls, entry, obs_name)
+        ctx = contexts[entry.qualname]
         key = (src.module.__name__, entry.qualname, ctx, tuple(operators or ()))
         found = _MUTATIONS.get(key)
         if found is None:
