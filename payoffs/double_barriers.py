@@ -361,7 +361,10 @@ def strip_survival(x: np.ndarray, y: np.ndarray, var: np.ndarray, lower: float, 
             # (under e^-200) is skipped: the bounds fall faster than geometrically in |n|, so
             # all that is skipped sums to far less than the rounding of a probability near 1.
             # On short steps only n = 0 of term 1 and n = 0, -1 of term 2 remain.
-            scale = 2.0 * w * w / float(np.max(var))
+            top = float(np.max(var))
+            if not top > 0.0:  # no variance on any step: the bridge is the straight line between the ends
+                return np.where(inside, 1.0, 0.0)
+            scale = 2.0 * w * w / top
             reach = float(np.max(np.abs(d), where=inside, initial=0.0)) / w
             n_max = 1 + int(math.ceil(math.sqrt(_CUT / scale))) + int(math.ceil(reach))
             p = np.zeros(np.broadcast(x, y, var).shape)
@@ -371,6 +374,8 @@ def strip_survival(x: np.ndarray, y: np.ndarray, var: np.ndarray, lower: float, 
                     p = p + np.exp(-2.0 * n * w * (n * w - d) / var)
                 if (n * n if n >= 0 else (m - 1) ** 2) * scale <= _CUT:
                     p = p - np.exp(-2.0 * (b - x + n * w) * (b - y + n * w) / var)
+            if float(np.min(var)) <= 0.0:  # a step without variance: the straight line stays inside
+                p = np.where(var > 0.0, p, 1.0)
         return np.where(inside, np.clip(np.nan_to_num(p, nan=0.0), 0.0, 1.0), 0.0)
 
 

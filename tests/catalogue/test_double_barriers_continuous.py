@@ -148,3 +148,17 @@ def test_strip_survival_matches_sine_expansion():
     x, y, v = math.log(100.0), math.log(110.0), 0.02
     assert float(D.strip_survival(np.array(x), np.array(y), np.array(v), 0.0, hi)) == pytest.approx(
         -math.expm1(-2.0 * (b - x) * (b - y) / v), abs=1e-15)
+
+
+def test_a_step_without_variance_keeps_the_path_alive_inside_the_corridor():
+    """With no variance the bridge is the straight line between its ends: it stays inside a
+    corridor (an interval) whenever both ends do (the one-sided formulas give the same:
+    -expm1(-inf) = 1)."""
+    x = np.log(np.array([[100.0, 110.0], [100.0, 125.0]]))
+    y = np.log(np.array([[105.0, 100.0], [100.0, 100.0]]))
+    var = np.array([[0.0, 0.01]])
+    got = D.strip_survival(x, y, var, 80.0, 120.0)
+    assert got[0, 0] == 1.0 and 0.0 < got[0, 1] < 1.0  # the variance-free step survives
+    assert got[1, 1] == 0.0  # an end outside
+    assert np.array_equal(D.strip_survival(x, y, np.zeros((1, 2)), 80.0, 120.0), [[1.0, 1.0], [1.0, 0.0]])
+    assert np.array_equal(D.strip_survival(x, y, var, 0.0, 120.0)[:, 0], [1.0, 1.0])
