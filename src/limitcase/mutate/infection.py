@@ -10,7 +10,7 @@ never reached, ``max`` for ``min`` of two equal things. Each was priced at every
 product's checks on simulated paths, the same paths and the same original each time.
 
 The argument (weak mutation, W. E. Howden, "Weak mutation testing and completeness of test
-sets", IEEE Transactions on Software Engineering 8(4), 1982). A mutant differs from its
+sets", IEEE Transactions on Software Engineering SE-8(4), 371-379, 1982). A mutant differs from its
 original in one expression. Run the original once per point with every mutable expression
 of its payoff code wrapped in a probe that evaluates the expression, then each of its
 mutated forms in the same frame, and hands on the original's value. If at every evaluation
