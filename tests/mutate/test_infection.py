@@ -14,7 +14,6 @@ import pytest
 
 from limitcase.loader import load_products
 from limitcase.mutate import dead, equivalence, make_mutants, probe_difference
-from limitcase.mutate import infection
 from limitcase.mutate.infection import ProbedClass, _probe_safe, probed_class, same_value
 
 PRODUCTS = ("DownAndOutPut", "GapCall", "DoubleKnockOutPut", "FloatingLookbackCall", "Autocallable")
@@ -110,7 +109,6 @@ def test_equal_looking_values_that_can_be_told_apart_count_as_changed():
 def test_the_probe_hands_on_the_original_and_marks_what_differs():
     probed = ProbedClass.__new__(ProbedClass)
     probed.changed = set()
-    infection._FRESH_REFS = infection._fresh_refs()
     held = np.array([3.0, 4.0])
     v = probed._probe(lambda: held * 1.0, ((0, lambda: held + 0.0), (1, lambda: held), (2, lambda: held[::1]),
                                           (3, lambda: 1 / 0), (4, lambda: held * 2.0)))

@@ -233,36 +233,34 @@ def reuse_or_compare(compare: Callable[..., Any], original: Product, mutant: Pro
     if span is not None and not _evaluated(spans, span):
         return result
     if variant is not None:
-        changed = _changed(ck, compare, original, model, paths, seed, key, result)
-        if changed is not None and changed[0].unchanged(variant, changed[1]):
-            return result
+        from .infection import probed_class
+
+        probed = probed_class(type(original))
+        if probed is not None and probed.probed(variant):
+            changed = _changed(ck, probed, compare, original, model, paths, seed, key, result)
+            if changed is not None and probed.unchanged(variant, changed):
+                return result
     return compare(original, mutant, model, paths, seed, key)
 
 
-_CHANGED: dict[tuple, tuple[Any, frozenset[int]] | None] = {}
-"""Per comparison: the probed twin and the mutated forms its probes saw change, or ``None``
-when the probed run did not give exactly the plain twin's result (this process only)."""
+_CHANGED: dict[tuple, frozenset[int] | None] = {}
+"""Per comparison: the mutated forms the probes saw change, or ``None`` when the probed run
+did not give exactly the plain twin's result (this process only)."""
 
 
-def _changed(ck: tuple, compare: Callable[..., Any], original: Product, model: Model, paths: int, seed: int,
-             key: int, result: Any) -> tuple[Any, frozenset[int]] | None:
+def _changed(ck: tuple, probed: Any, compare: Callable[..., Any], original: Product, model: Model, paths: int,
+             seed: int, key: int, result: Any) -> frozenset[int] | None:
     """The probed run of a comparison (:mod:`limitcase.mutate.infection`), once per point."""
     if ck in _CHANGED:
         return _CHANGED[ck]
-    from .infection import probed_class
-
-    probed = probed_class(type(original))
-    found: tuple[Any, frozenset[int]] | None = None
-    if probed is not None:
-        probed.reset()
-        try:
-            again = compare(original, probed.cls(**original.params()), model, paths, seed, key)
-        except Exception:
-            again = None
-        # the probes hand on the original's values: the same result to the last bit, or a
-        # probe disturbed the run and nothing is reused
-        if again is not None and repr(again) == repr(result):
-            found = (probed, frozenset(probed.changed))
+    probed.reset()
+    try:
+        again = compare(original, probed.cls(**original.params()), model, paths, seed, key)
+    except Exception:
+        again = None
+    # the probes hand on the original's values: the same result to the last bit, or a probe
+    # disturbed the run and nothing is reused
+    found = frozenset(probed.changed) if again is not None and repr(again) == repr(result) else None
     if len(_CHANGED) >= MOST_KEPT:
         _CHANGED.clear()
     _CHANGED[ck] = found

@@ -43,7 +43,8 @@ from typing import Any, Callable
 import numpy as np
 
 from ..product import Product
-from .mutants import Scoped, build_class, function_variants, payoff_scope, scope_contexts, strip_function
+from .mutants import (Scoped, build_class, function_variants, payoff_scope, preorder, scope_contexts,
+                      strip_function)
 
 __all__ = ["ProbedClass", "probed_class", "same_value"]
 
@@ -115,16 +116,7 @@ def _probe_safe(node: ast.AST) -> bool:
 
 
 def _parents(root: ast.AST) -> dict[int, tuple[ast.AST, str, int | None]]:
-    out: dict[int, tuple[ast.AST, str, int | None]] = {}
-    for parent in ast.walk(root):
-        for name, value in ast.iter_fields(parent):
-            if isinstance(value, list):
-                for i, v in enumerate(value):
-                    if isinstance(v, ast.AST):
-                        out[id(v)] = (parent, name, i)
-            elif isinstance(value, ast.AST):
-                out[id(value)] = (parent, name, None)
-    return out
+    return {id(node): (parent, fld, idx) for node, parent, fld, idx in preorder(root) if parent is not None}
 
 
 def _replaced(parent: ast.AST, fld: str, idx: int | None, new: ast.AST) -> ast.AST:
@@ -200,7 +192,6 @@ class ProbedClass:
     mutated function's source)``) that gave another value since :meth:`reset`."""
 
     def __init__(self, cls: type[Product]) -> None:
-        self.original = cls
         self.keys: list[tuple[str, str]] = []
         self.changed: set[int] = set()
         self.cls = self._build(cls)
@@ -229,9 +220,7 @@ class ProbedClass:
             except Exception:
                 changed.add(i)
                 continue
-            # references to a fresh array here: the name, the argument of getrefcount, and
-            # same_value's parameter and the predicate's; anything more is another holder
-            if not same_value(v, w, lambda a: a.base is None and sys.getrefcount(a) <= _FRESH_REFS):
+            if not same_value(v, w, _fresh):
                 changed.add(i)
             del w
         return v
@@ -284,8 +273,9 @@ class ProbedClass:
 
 
 def _fresh_refs() -> int:
-    """References a fresh array has inside :meth:`ProbedClass._probe`'s test (measured, so
-    that another interpreter version's counting is followed, not assumed)."""
+    """References a fresh array has inside the predicate :func:`same_value` calls from
+    :meth:`ProbedClass._probe` (a name, same_value's parameter, the predicate's, getrefcount's
+    argument): measured, so that another interpreter version's counting is followed."""
     seen: list[int] = []
 
     def count(a: Any) -> bool:
@@ -295,26 +285,26 @@ def _fresh_refs() -> int:
     v = np.zeros(3)
     w = np.zeros(3)
     same_value(v, w, count)
-    return max(seen) if seen else 0
+    return max(seen)
 
 
-_FRESH_REFS = 0
+_FRESH_REFS = _fresh_refs()
+
+
+def _fresh(a: np.ndarray) -> bool:
+    """``a`` owns its memory and nothing but the probe refers to it."""
+    return a.base is None and sys.getrefcount(a) <= _FRESH_REFS
+
+
+_BUILT: dict[type, ProbedClass | None] = {}
 
 
 def probed_class(cls: type[Product]) -> ProbedClass | None:
     """The probed twin of ``cls`` (built once per process), or ``None`` when it cannot be
     built (its payoff code cannot be parsed or the probes do not compile)."""
-    global _FRESH_REFS
-    found = _BUILT.get(cls, False)
-    if found is False:
+    if cls not in _BUILT:
         try:
-            if not _FRESH_REFS:
-                _FRESH_REFS = _fresh_refs()
-            found = ProbedClass(cls)
+            _BUILT[cls] = ProbedClass(cls)
         except Exception:
-            found = None
-        _BUILT[cls] = found
-    return found  # type: ignore[return-value]
-
-
-_BUILT: dict[type, ProbedClass | None] = {}
+            _BUILT[cls] = None
+    return _BUILT[cls]

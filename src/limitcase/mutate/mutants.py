@@ -33,6 +33,7 @@ __all__ = [
     "function_variants",
     "make_mutants",
     "payoff_scope",
+    "preorder",
     "scope_contexts",
     "strip_function",
 ]
@@ -544,6 +545,7 @@ def scope_contexts(cls: type[Product], scope: Sequence[Scoped]) -> dict[str, Con
 
 
 strip_function = _strip
+preorder = _preorder
 
 
 _MUTATIONS: dict[tuple, list[Mutation]] = {}
